@@ -1,1 +1,242 @@
-int main(){return 0;}
+// SPDX-License-Identifier: MIT
+// The sigmatube command line: a thin layer over the library. Exit codes
+// (product.md §3): 0 within bounds / no regression, 1 a bound exceeded / a
+// regression, 2 bad input or usage, 3 surrogate and Monte Carlo disagree,
+// 4 numerical failure.
+#include <CLI/CLI.hpp>
+
+#include <cstdio>
+#include <exception>
+#include <fstream>
+#include <iostream>
+#include <optional>
+#include <sstream>
+#include <string>
+
+#include "sigmatube/app/analysis.h"
+#include "sigmatube/app/batch.h"
+#include "sigmatube/app/case_loader.h"
+#include "sigmatube/core/error.h"
+#include "sigmatube/result/compare.h"
+#include "sigmatube/result/html_report.h"
+#include "sigmatube/result/json_summary.h"
+#include "sigmatube/result/result_file.h"
+#include "sigmatube/result/summary_text.h"
+
+namespace {
+
+using namespace sigmatube;
+
+constexpr int kExitBadInput = 2;
+constexpr int kExitNumerical = 4;
+
+struct Common {
+  int threads = 0;
+  std::optional<unsigned long long> seed;
+  std::optional<long long> mc_runs;
+  bool force = false;
+  bool quiet = false;
+  std::string json;
+};
+
+void add_common(CLI::App* command, Common& common, bool with_analysis) {
+  command->add_option("--threads", common.threads, "worker threads (0 = all cores)")->check(CLI::NonNegativeNumber);
+  if (with_analysis) {
+    command->add_option("--seed", common.seed, "Monte Carlo seed (overrides [montecarlo].seed)");
+    command->add_option("--mc-runs", common.mc_runs, "Monte Carlo runs (0 disables the cross-check)")
+        ->check(CLI::NonNegativeNumber);
+  }
+  command->add_flag("--force", common.force, "overwrite existing output files");
+  command->add_flag("--quiet", common.quiet, "print nothing but errors");
+  command->add_option("--json", common.json, "also write a machine-readable summary to FILE");
+}
+
+app::AnalysisOptions analysis_options(const Common& common) {
+  app::AnalysisOptions options;
+  options.threads = common.threads;
+  options.seed = common.seed;
+  options.mc_runs = common.mc_runs;
+  options.progress = !common.quiet;
+  return options;
+}
+
+void say(const Common& common, const std::string& text) {
+  if (!common.quiet) std::cout << text << std::flush;
+}
+
+std::string run_help_footer() {
+  return "\nCAUTION\n" + result::cautions_text() +
+         "\n\nExit codes: 0 every constraint within its bound, 1 a constraint exceeds its bound,\n"
+         "2 bad input or usage, 3 surrogate and Monte Carlo disagree, 4 numerical failure.\n";
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  CLI::App cli{"sigmatube: chance-constraint analysis of closed-loop trajectory plans by polynomial chaos,\n"
+               "cross-checked with Monte Carlo."};
+  cli.require_subcommand(1);
+  cli.set_version_flag("--version", std::string(SIGMATUBE_VERSION));
+
+  Common common;
+  std::string case_path, output, csv_path, base_path, candidate_path, suite_path, directory, junit, budget;
+  std::string plane_x, plane_y;
+  std::optional<long long> samples;
+  double max_increase = -1.0, significance = -1.0;
+
+  auto* check = cli.add_subcommand("check", "Validate a case and say what it will compute; computes nothing.");
+  check->add_option("CASE", case_path, "case file (TOML)")->required();
+  check->add_flag("--quiet", common.quiet, "print nothing but errors");
+
+  auto* simulate = cli.add_subcommand("simulate", "The nominal closed-loop run only.");
+  simulate->add_option("CASE", case_path, "case file (TOML)")->required();
+  simulate->add_option("-o,--output", output, "result file (HDF5)")->required();
+  simulate->add_option("--csv", csv_path, "also write the nominal outputs as CSV");
+  add_common(simulate, common, false);
+
+  auto* run = cli.add_subcommand("run", "The whole analysis: surrogate, constraints, margins, Monte Carlo cross-check.");
+  run->add_option("CASE", case_path, "case file (TOML)")->required();
+  run->add_option("-o,--output", output, "result file (HDF5)")->required();
+  run->add_option("--samples", samples, "surrogate samples for probabilities (overrides [surrogate].samples)")
+      ->check(CLI::PositiveNumber);
+  add_common(run, common, true);
+  run->footer(run_help_footer());
+
+  auto* show = cli.add_subcommand("show", "Print the summary of a result file.");
+  show->add_option("RESULT", case_path, "result file (HDF5)")->required();
+  show->add_option("--json", common.json, "also write a machine-readable summary to FILE");
+  show->add_flag("--force", common.force, "overwrite existing output files");
+
+  auto* compare = cli.add_subcommand("compare", "Release gate: risk and margin changes from BASE to CAND, pass or fail.");
+  compare->add_option("BASE", base_path, "baseline result file")->required();
+  compare->add_option("CAND", candidate_path, "candidate result file")->required();
+  compare->add_option("--budget", budget, "budget TOML: bounds, allowed increase, minimum margin");
+  compare->add_option("--max-increase", max_increase, "largest allowed absolute increase of a path probability");
+  compare->add_option("--significance", significance, "one-sided significance level of the noise test");
+  compare->add_option("--junit", junit, "write JUnit XML to FILE");
+  add_common(compare, common, false);
+
+  auto* batch = cli.add_subcommand("batch", "Run every case of a suite: one result each, one summary.");
+  batch->add_option("SUITE", suite_path, "suite file (TOML)")->required();
+  batch->add_option("-d,--directory", directory, "folder for the result files")->required();
+  batch->add_option("--junit", junit, "write JUnit XML to FILE");
+  add_common(batch, common, true);
+
+  auto* report = cli.add_subcommand("report", "Write a self-contained HTML page with plots of a result.");
+  report->add_option("RESULT", case_path, "result file (HDF5)")->required();
+  report->add_option("-o,--output", output, "HTML file")->required();
+  report->add_option("--plane", plane_x, "output on the horizontal axis of the path plot (e.g. y)");
+  report->add_option("--plane-y", plane_y, "output on the vertical axis of the path plot (e.g. x)");
+  report->add_flag("--force", common.force, "overwrite existing output files");
+
+  try {
+    cli.parse(argc, argv);
+  } catch (const CLI::CallForHelp& e) {
+    return cli.exit(e);
+  } catch (const CLI::CallForAllHelp& e) {
+    return cli.exit(e);
+  } catch (const CLI::CallForVersion& e) {
+    return cli.exit(e);
+  } catch (const CLI::ParseError& e) {
+    std::cerr << "sigmatube: error: " << e.what() << " (see --help)\n";
+    return kExitBadInput;
+  }
+
+  try {
+    if (check->parsed()) {
+      const app::LoadedCase loaded = app::load_case(case_path);
+      say(common, app::describe_case(loaded));
+      return 0;
+    }
+    if (simulate->parsed()) {
+      result::check_output_path(output, common.force);
+      if (!csv_path.empty()) result::check_output_path(csv_path, common.force);
+      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      const app::LoadedCase loaded = app::load_case(case_path);
+      const result::AnalysisResult nominal = app::simulate_case(loaded);
+      result::write_result_file(nominal, output, common.force);
+      if (!csv_path.empty()) {
+        std::ostringstream csv;
+        csv << "t";
+        for (const auto& name : nominal.output_names) csv << ',' << name;
+        csv << '\n';
+        csv.precision(17);
+        for (std::size_t k = 0; k < nominal.time.size(); ++k) {
+          csv << nominal.time[k];
+          for (Eigen::Index j = 0; j < nominal.nominal_outputs.cols(); ++j)
+            csv << ',' << nominal.nominal_outputs(static_cast<Eigen::Index>(k), j);
+          csv << '\n';
+        }
+        result::write_text_file(csv.str(), csv_path, common.force);
+      }
+      if (!common.json.empty()) result::write_text_file(result::json_summary(nominal), common.json, common.force);
+      say(common, result::summary_text(nominal));
+      say(common, "wrote " + output + "\n");
+      return 0;
+    }
+    if (run->parsed()) {
+      result::check_output_path(output, common.force);
+      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      const app::LoadedCase loaded = app::load_case(case_path);
+      app::AnalysisOptions options = analysis_options(common);
+      options.samples = samples;
+      const result::AnalysisResult analysis = app::analyze_case(loaded, options);
+      result::write_result_file(analysis, output, common.force);
+      if (!common.json.empty()) result::write_text_file(result::json_summary(analysis), common.json, common.force);
+      say(common, result::summary_text(analysis));
+      say(common, "wrote " + output + "\n");
+      return analysis.verdict_exit_code();
+    }
+    if (show->parsed()) {
+      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      const result::AnalysisResult stored = result::read_result_file(case_path);
+      std::cout << result::summary_text(stored);
+      if (!common.json.empty()) result::write_text_file(result::json_summary(stored), common.json, common.force);
+      return 0;
+    }
+    if (compare->parsed()) {
+      if (!junit.empty()) result::check_output_path(junit, common.force);
+      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      result::CompareOptions options = budget.empty() ? result::CompareOptions{} : result::read_budget(budget);
+      if (max_increase >= 0) options.max_absolute_increase = max_increase;
+      if (significance > 0) options.significance = significance;
+      const result::AnalysisResult base = result::read_result_file(base_path);
+      const result::AnalysisResult candidate = result::read_result_file(candidate_path);
+      const result::CompareReport gate = result::compare_results(base, candidate, options);
+      say(common, result::compare_text(gate));
+      if (!junit.empty()) result::write_text_file(result::compare_junit(gate, "sigmatube.compare"), junit, common.force);
+      if (!common.json.empty()) result::write_text_file(result::compare_json(gate), common.json, common.force);
+      return gate.regression ? 1 : 0;
+    }
+    if (batch->parsed()) {
+      app::BatchOptions options;
+      options.analysis = analysis_options(common);
+      options.directory = directory;
+      options.force = common.force;
+      options.junit_path = junit;
+      options.json_path = common.json;
+      options.quiet = common.quiet;
+      return app::run_batch(suite_path, options);
+    }
+    if (report->parsed()) {
+      result::check_output_path(output, common.force);
+      const result::AnalysisResult stored = result::read_result_file(case_path);
+      result::ReportOptions options;
+      options.plane_x = plane_x;
+      options.plane_y = plane_y;
+      result::write_text_file(result::html_report(stored, options), output, common.force);
+      say(common, "wrote " + output + "\n");
+      return 0;
+    }
+  } catch (const InputError& e) {
+    std::cerr << "sigmatube: error: " << e.what() << '\n';
+    return kExitBadInput;
+  } catch (const NumericalError& e) {
+    std::cerr << "sigmatube: numerical failure: " << e.what() << '\n';
+    return kExitNumerical;
+  } catch (const std::exception& e) {
+    std::cerr << "sigmatube: internal error: " << e.what() << '\n';
+    return kExitNumerical;
+  }
+  return kExitBadInput;
+}

@@ -1,0 +1,35 @@
+// SPDX-License-Identifier: MIT
+#pragma once
+// Reads a case file and builds everything an analysis needs: the model, the
+// closed loop (plan + controller), the germ and the constraints. Every user
+// mistake surfaces here as an InputError naming file, line and key, before any
+// computation starts and before any output file is touched.
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "sigmatube/casefile/case_options.h"
+#include "sigmatube/constraints/constraint.h"
+#include "sigmatube/germ/germ.h"
+#include "sigmatube/model/closed_loop.h"
+#include "sigmatube/model/model.h"
+
+namespace sigmatube::app {
+
+struct LoadedCase {
+  casefile::CaseOptions options;
+  std::string case_sha256;  // of the case file's bytes
+  std::shared_ptr<const model::Model> model;
+  std::unique_ptr<model::ClosedLoop> closed_loop;
+  std::unique_ptr<germ::Germ> germ;
+  std::vector<std::unique_ptr<constraints::Constraint>> constraints;
+};
+
+/// Throws InputError for anything wrong with the case, its plan or its expressions.
+LoadedCase load_case(const std::string& path);
+
+/// What `check` prints: model, dimensions, plan span, controller, uncertain
+/// inputs, constraints, and the number of model runs the design needs.
+std::string describe_case(const LoadedCase& loaded);
+
+}  // namespace sigmatube::app

@@ -1,0 +1,111 @@
+// SPDX-License-Identifier: MIT
+// Every bad case under tests/bad_cases/ must, through the command line, give
+// exit code 2, a one-line message naming the file, and no output file — for
+// `check`, `simulate` and `run` alike (the error policy of DEVELOPERS.md).
+#include <gtest/gtest.h>
+#include <sys/wait.h>
+
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+#include <string>
+#include <vector>
+
+namespace {
+namespace fs = std::filesystem;
+
+struct CommandResult {
+  int exit_code = -1;
+  std::string stdout_text;
+  std::string stderr_text;
+};
+
+CommandResult run_command(const std::string& arguments) {
+  const fs::path err = fs::temp_directory_path() / ("sigmatube_cli_err_" + std::to_string(::getpid()));
+  const std::string command = std::string(SIGMATUBE_CLI) + " " + arguments + " 2>" + err.string();
+  CommandResult result;
+  FILE* pipe = ::popen(command.c_str(), "r");
+  if (!pipe) return result;
+  char buffer[4096];
+  std::size_t n;
+  while ((n = std::fread(buffer, 1, sizeof buffer, pipe)) > 0) result.stdout_text.append(buffer, n);
+  const int status = ::pclose(pipe);
+  result.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+  std::ifstream in(err);
+  result.stderr_text.assign(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
+  fs::remove(err);
+  return result;
+}
+
+std::vector<fs::path> bad_cases() {
+  std::vector<fs::path> files;
+  for (const auto& entry : fs::directory_iterator(fs::path(SIGMATUBE_SOURCE_DIR) / "tests" / "bad_cases"))
+    if (entry.path().extension() == ".toml") files.push_back(entry.path());
+  std::sort(files.begin(), files.end());
+  return files;
+}
+
+int count_lines(const std::string& text) {
+  int lines = 0;
+  for (char c : text) lines += c == '\n';
+  if (!text.empty() && text.back() != '\n') ++lines;
+  return lines;
+}
+
+TEST(CommandLineBadInput, AtLeastTwentyDistinctBadCasesExist) { EXPECT_GE(bad_cases().size(), 20u); }
+
+TEST(CommandLineBadInput, EveryBadCaseExitsTwoWithOneLineAndNoOutput) {
+  const fs::path out_dir = fs::temp_directory_path() / ("sigmatube_bad_" + std::to_string(::getpid()));
+  fs::create_directories(out_dir);
+  for (const auto& file : bad_cases()) {
+    SCOPED_TRACE(file.filename().string());
+    for (const std::string command : {"check", "simulate", "run"}) {
+      SCOPED_TRACE(command);
+      const fs::path output = out_dir / (file.stem().string() + "_" + command + ".h5");
+      std::string arguments = command + " '" + file.string() + "'";
+      if (command != "check") arguments += " -o '" + output.string() + "' --mc-runs 0";
+      if (command == "simulate") arguments = command + " '" + file.string() + "' -o '" + output.string() + "'";
+      const CommandResult result = run_command(arguments);
+      EXPECT_EQ(result.exit_code, 2) << result.stderr_text;
+      EXPECT_EQ(count_lines(result.stderr_text), 1) << result.stderr_text;
+      EXPECT_NE(result.stderr_text.find(file.filename().string()), std::string::npos) << result.stderr_text;
+      EXPECT_FALSE(fs::exists(output));
+      // Nothing half-written either: no temporary left behind.
+      for (const auto& entry : fs::directory_iterator(out_dir))
+        EXPECT_EQ(entry.path().string().find(".tmp."), std::string::npos) << entry.path();
+    }
+  }
+  fs::remove_all(out_dir);
+}
+
+TEST(CommandLineBadInput, ExistingOutputIsNeverOverwrittenWithoutForce) {
+  const fs::path out_dir = fs::temp_directory_path() / ("sigmatube_force_" + std::to_string(::getpid()));
+  fs::create_directories(out_dir);
+  const fs::path output = out_dir / "existing.h5";
+  { std::ofstream(output) << "precious"; }
+  const std::string demo = std::string(SIGMATUBE_SOURCE_DIR) + "/cases/inspection-approach/case.toml";
+  const CommandResult result = run_command("simulate '" + demo + "' -o '" + output.string() + "'");
+  EXPECT_EQ(result.exit_code, 2);
+  EXPECT_EQ(count_lines(result.stderr_text), 1) << result.stderr_text;
+  std::ifstream in(output);
+  std::string content((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  EXPECT_EQ(content, "precious");
+  const CommandResult forced = run_command("simulate '" + demo + "' -o '" + output.string() + "' --force --quiet");
+  EXPECT_EQ(forced.exit_code, 0) << forced.stderr_text;
+  fs::remove_all(out_dir);
+}
+
+TEST(CommandLineBadInput, UnknownCommandAndMissingArgumentsAreUsageErrors) {
+  EXPECT_EQ(run_command("frobnicate").exit_code, 2);
+  EXPECT_EQ(run_command("run").exit_code, 2);
+  EXPECT_EQ(run_command("--help").exit_code, 0);
+}
+
+TEST(CommandLineBadInput, RunHelpCarriesTheCautions) {
+  const CommandResult help = run_command("run --help");
+  EXPECT_EQ(help.exit_code, 0);
+  EXPECT_NE(help.stdout_text.find("safety standards"), std::string::npos) << help.stdout_text;
+  EXPECT_NE(help.stdout_text.find("Monte Carlo"), std::string::npos);
+}
+
+}  // namespace

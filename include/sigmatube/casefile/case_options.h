@@ -4,6 +4,7 @@
 // defaults a case gets when it leaves a key out. The contract for the keys is
 // docs/case-file.md; the reader is casefile/case_reader.h. Every struct keeps the
 // SourceLocation of its table so that later stages can name file, line and key.
+#include <map>
 #include <optional>
 #include <string>
 #include <utility>
@@ -12,6 +13,21 @@
 #include "sigmatube/core/error.h"
 
 namespace sigmatube::casefile {
+
+/// Where each key of one table was written, so that a later stage (model factory,
+/// validation against the model, expression compiler) can point at the exact line.
+/// Keys are the table's own keys ("radius", "applies_to"); `of` falls back to the
+/// table's location for a key that was not written (its default applies).
+struct KeyLocations {
+  std::map<std::string, SourceLocation> keys;
+  SourceLocation of(const std::string& key, const SourceLocation& table) const {
+    auto it = keys.find(key);
+    if (it != keys.end()) return it->second;
+    SourceLocation fallback = table;
+    fallback.key = table.key.empty() ? key : table.key + "." + key;
+    return fallback;
+  }
+};
 
 /// An expression written in the case file, with where it was written.
 struct NamedExpression {
@@ -36,6 +52,7 @@ struct ModelOptions {
   std::vector<NamedExpression> rhs;        // expression model: d(state)/dt, one per state
   std::vector<NamedExpression> outputs;    // derived outputs, optional
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class Interpolation { linear, cubic };
@@ -46,6 +63,7 @@ struct PlanOptions {
   std::string path;  // resolved against the case file's folder
   Interpolation interpolation = Interpolation::linear;
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class ControlLaw { lqr, gain, open_loop };
@@ -69,6 +87,7 @@ struct ControlOptions {
   bool time_varying = true;
   std::vector<InputLimit> limits;         // saturation of the applied input
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class IntegratorKind { dopri5, rk4 };
@@ -81,6 +100,7 @@ struct SimulationOptions {
   double atol = 1e-10;
   double report_every_in_seconds = 0.0;  // 0 = report at the plan's times
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class DistributionKind {
@@ -121,6 +141,7 @@ struct UncertainOptions {
   int modes = 0;         // > 0: keep this many Karhunen–Loève modes
   double energy = 0.0;   // in (0, 1]: keep the fewest modes that capture this variance fraction
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class ConstraintKind {
@@ -154,6 +175,7 @@ struct ConstraintOptions {
   double max_probability = 1e-3;      // in (0, 1)
   ConstraintScope scope = ConstraintScope::path;
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class SurrogateMethod { sparse_grid, tensor_grid, regression };
@@ -173,6 +195,7 @@ struct SurrogateOptions {
   RegressionDesign design = RegressionDesign::sobol;
   bool nested = false;         // sparse-grid: nested Clenshaw–Curtis for uniform (Legendre) germs
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 /// [montecarlo]
@@ -181,6 +204,7 @@ struct MonteCarloOptions {
   unsigned long long seed = 20261201ULL;
   double confidence = 0.95;              // two-sided, for Clopper–Pearson intervals
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 /// A whole case file.

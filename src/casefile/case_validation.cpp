@@ -29,7 +29,10 @@ void validate_against_model(const CaseOptions& options, const std::vector<std::s
   const ModelOptions& model = options.model;
   if (!model.builtin.empty()) {
     for (const NamedValue& p : model.parameters)
-      require_name(p.name, parameters, "parameter of built-in model '" + model.builtin + "'", p.where);
+      if (!contains(parameters, p.name))
+        throw InputError(p.where, "'" + p.name + "' is not a parameter of built-in model '" + model.builtin + "'" +
+                                      did_you_mean(p.name, parameters) + "; its parameters: " +
+                                      (parameters.empty() ? std::string("none") : join_names(parameters)));
     for (const NamedExpression& o : model.outputs)
       if (contains(states, o.name) || contains(inputs, o.name) || contains(parameters, o.name))
         throw InputError(o.where, "output name '" + o.name + "' is already a name of built-in model '" +

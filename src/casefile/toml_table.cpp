@@ -76,7 +76,10 @@ void TomlTable::fail_at(const toml::node& at, const std::string& key, const std:
 }
 
 void TomlTable::missing(const std::string& key) const {
-  const std::string in = path_.empty() ? std::string("the file") : "[" + path_ + "]";
+  // Entries of arrays of tables are already bracketed ("constraint[1]").
+  const std::string in = path_.empty()                ? std::string("the file")
+                         : path_.back() == ']'        ? path_
+                                                      : "[" + path_ + "]";
   throw InputError(SourceLocation{file_, line_, key_path(key)}, "missing required key '" + key + "' in " + in);
 }
 

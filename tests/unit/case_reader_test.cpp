@@ -179,6 +179,9 @@ struct BadCase {
   std::string message;
 };
 
+// gtest prints parameters on failure; the file name says everything.
+void PrintTo(const BadCase& c, std::ostream* out) { *out << c.path; }
+
 std::vector<BadCase> load_bad_cases() {
   std::vector<BadCase> cases;
   const std::regex header(R"(^# expect: line=(\d+) key=(\S*) stage=(read|model) message=(.+)$)");

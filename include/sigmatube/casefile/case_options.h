@@ -117,7 +117,8 @@ enum class DistributionKind {
 enum class KernelKind { exponential, squared_exponential };
 
 /// One [[uncertain]] entry. Which numeric fields matter depends on `distribution`:
-///   normal            mean, std (scalar) or mean vector + covariance
+///   normal            mean and std, one value per applies_to target (independent
+///                     components), or mean vector + covariance (std then empty)
 ///   uniform           low, high
 ///   beta              alpha, beta, low, high
 ///   gamma             shape, scale            (mean = shape·scale)
@@ -130,14 +131,14 @@ struct UncertainOptions {
   std::vector<std::string> applies_to;  // targets such as "initial.x"; a vector normal has one per component
   DistributionKind distribution = DistributionKind::normal;
   std::vector<double> mean;             // scalar normal: one value
-  std::vector<double> std;              // scalar: one value
+  std::vector<double> std;              // normal: one per target; truncated-normal, gaussian-process: one value
   std::vector<std::vector<double>> covariance;
   double low = 0.0, high = 0.0, mode = 0.0;
   double alpha = 0.0, beta = 0.0;
   double shape = 0.0, scale = 0.0;
   double mu = 0.0, sigma = 0.0;
   KernelKind kernel = KernelKind::exponential;
-  double correlation_time_in_seconds = 0.0;
+  double correlation_time_in_seconds = 0.0;  // key `correlation_time`
   int modes = 0;         // > 0: keep this many Karhunen–Loève modes
   double energy = 0.0;   // in (0, 1]: keep the fewest modes that capture this variance fraction
   SourceLocation where;
@@ -172,7 +173,7 @@ struct ConstraintOptions {
   std::string input;                  // input-limit: the input name
   std::string clearance;              // expression: clearance ≥ 0 is safe
   std::optional<std::pair<double, double>> window_in_seconds;  // empty = the whole plan
-  double max_probability = 1e-3;      // in (0, 1)
+  double max_probability = 1e-3;      // in (0, 1); required in the case file (no default there)
   ConstraintScope scope = ConstraintScope::path;
   SourceLocation where;
   KeyLocations key_where;
@@ -191,7 +192,7 @@ struct SurrogateOptions {
   double tolerance = 1e-3;     // relative error estimate per output
   int max_model_runs = 2000;
   long long samples = 1000000; // surrogate samples for probabilities
-  double oversampling = 2.0;   // regression: runs = ceil(oversampling · basis size), ≥ 2 required
+  double oversampling = 2.0;   // regression: runs = ceil(oversampling · basis size); the reader requires ≥ 2
   RegressionDesign design = RegressionDesign::sobol;
   bool nested = false;         // sparse-grid: nested Clenshaw–Curtis for uniform (Legendre) germs
   SourceLocation where;

@@ -38,6 +38,17 @@ bool is_identifier(const std::string& name) {
   return std::all_of(name.begin(), name.end(), [&](char c) { return alpha(c) || (c >= '0' && c <= '9'); });
 }
 
+// Uncertain and constraint names become HDF5 group names and suite override keys, so
+// they use the characters of a TOML bare key only.
+std::string entry_name(const TomlTable& t) {
+  const std::string name = t.string("name");
+  const bool ok = std::all_of(name.begin(), name.end(), [](char c) {
+    return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') || c == '_' || c == '-';
+  });
+  if (!ok) t.fail("name", "'" + name + "' may use only letters, digits, '_' and '-'");
+  return name;
+}
+
 void require_positive(const TomlTable& t, const std::string& key, double value) {
   if (!(value > 0.0)) t.fail(key, "must be > 0 (got " + format_number(value) + ")");
 }
@@ -332,7 +343,7 @@ UncertainOptions read_uncertain(const TomlTable& t) {
   const std::string kind_name = distribution_name(u.distribution);
   t.check_keys_for_kind(concat(common, distribution_keys(u.distribution)), known,
                         "distribution '" + kind_name + "'");
-  u.name = t.string("name");
+  u.name = entry_name(t);
   u.applies_to = t.strings("applies_to", true);
   check_targets(t, u.applies_to);
   if (u.distribution != DistributionKind::normal && u.applies_to.size() != 1)
@@ -478,7 +489,7 @@ ConstraintOptions read_constraint(const TomlTable& t) {
   c.type = t.choice<ConstraintKind>("type", kConstraintKinds, std::nullopt, "constraint type");
   const std::string kind_name = constraint_kind_name(c.type);
   t.check_keys_for_kind(concat(common, constraint_keys(c.type)), known, "constraint type '" + kind_name + "'");
-  c.name = t.string("name");
+  c.name = entry_name(t);
   c.max_probability = t.number("max_probability");
   require_open_unit(t, "max_probability", c.max_probability);
   c.scope = t.choice<ConstraintScope>("scope", {{"path", ConstraintScope::path}, {"pointwise", ConstraintScope::pointwise}},

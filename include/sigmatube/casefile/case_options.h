@@ -4,6 +4,7 @@
 // defaults a case gets when it leaves a key out. The contract for the keys is
 // docs/case-file.md; the reader is casefile/case_reader.h. Every struct keeps the
 // SourceLocation of its table so that later stages can name file, line and key.
+#include <map>
 #include <optional>
 #include <string>
 #include <utility>
@@ -12,6 +13,21 @@
 #include "sigmatube/core/error.h"
 
 namespace sigmatube::casefile {
+
+/// Where each key of one table was written, so that a later stage (model factory,
+/// validation against the model, expression compiler) can point at the exact line.
+/// Keys are the table's own keys ("radius", "applies_to"); `of` falls back to the
+/// table's location for a key that was not written (its default applies).
+struct KeyLocations {
+  std::map<std::string, SourceLocation> keys;
+  SourceLocation of(const std::string& key, const SourceLocation& table) const {
+    auto it = keys.find(key);
+    if (it != keys.end()) return it->second;
+    SourceLocation fallback = table;
+    fallback.key = table.key.empty() ? key : table.key + "." + key;
+    return fallback;
+  }
+};
 
 /// An expression written in the case file, with where it was written.
 struct NamedExpression {
@@ -36,6 +52,7 @@ struct ModelOptions {
   std::vector<NamedExpression> rhs;        // expression model: d(state)/dt, one per state
   std::vector<NamedExpression> outputs;    // derived outputs, optional
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class Interpolation { linear, cubic };
@@ -46,6 +63,7 @@ struct PlanOptions {
   std::string path;  // resolved against the case file's folder
   Interpolation interpolation = Interpolation::linear;
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class ControlLaw { lqr, gain, open_loop };
@@ -69,6 +87,7 @@ struct ControlOptions {
   bool time_varying = true;
   std::vector<InputLimit> limits;         // saturation of the applied input
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class IntegratorKind { dopri5, rk4 };
@@ -81,6 +100,7 @@ struct SimulationOptions {
   double atol = 1e-10;
   double report_every_in_seconds = 0.0;  // 0 = report at the plan's times
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class DistributionKind {
@@ -97,7 +117,8 @@ enum class DistributionKind {
 enum class KernelKind { exponential, squared_exponential };
 
 /// One [[uncertain]] entry. Which numeric fields matter depends on `distribution`:
-///   normal            mean, std (scalar) or mean vector + covariance
+///   normal            mean and std, one value per applies_to target (independent
+///                     components), or mean vector + covariance (std then empty)
 ///   uniform           low, high
 ///   beta              alpha, beta, low, high
 ///   gamma             shape, scale            (mean = shape·scale)
@@ -110,17 +131,18 @@ struct UncertainOptions {
   std::vector<std::string> applies_to;  // targets such as "initial.x"; a vector normal has one per component
   DistributionKind distribution = DistributionKind::normal;
   std::vector<double> mean;             // scalar normal: one value
-  std::vector<double> std;              // scalar: one value
+  std::vector<double> std;              // normal: one per target; truncated-normal, gaussian-process: one value
   std::vector<std::vector<double>> covariance;
   double low = 0.0, high = 0.0, mode = 0.0;
   double alpha = 0.0, beta = 0.0;
   double shape = 0.0, scale = 0.0;
   double mu = 0.0, sigma = 0.0;
   KernelKind kernel = KernelKind::exponential;
-  double correlation_time_in_seconds = 0.0;
+  double correlation_time_in_seconds = 0.0;  // key `correlation_time`
   int modes = 0;         // > 0: keep this many Karhunen–Loève modes
   double energy = 0.0;   // in (0, 1]: keep the fewest modes that capture this variance fraction
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class ConstraintKind {
@@ -151,9 +173,10 @@ struct ConstraintOptions {
   std::string input;                  // input-limit: the input name
   std::string clearance;              // expression: clearance ≥ 0 is safe
   std::optional<std::pair<double, double>> window_in_seconds;  // empty = the whole plan
-  double max_probability = 1e-3;      // in (0, 1)
+  double max_probability = 1e-3;      // in (0, 1); required in the case file (no default there)
   ConstraintScope scope = ConstraintScope::path;
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 enum class SurrogateMethod { sparse_grid, tensor_grid, regression };
@@ -169,10 +192,11 @@ struct SurrogateOptions {
   double tolerance = 1e-3;     // relative error estimate per output
   int max_model_runs = 2000;
   long long samples = 1000000; // surrogate samples for probabilities
-  double oversampling = 2.0;   // regression: runs = ceil(oversampling · basis size), ≥ 2 required
+  double oversampling = 2.0;   // regression: runs = ceil(oversampling · basis size); the reader requires ≥ 2
   RegressionDesign design = RegressionDesign::sobol;
   bool nested = false;         // sparse-grid: nested Clenshaw–Curtis for uniform (Legendre) germs
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 /// [montecarlo]
@@ -181,6 +205,7 @@ struct MonteCarloOptions {
   unsigned long long seed = 20261201ULL;
   double confidence = 0.95;              // two-sided, for Clopper–Pearson intervals
   SourceLocation where;
+  KeyLocations key_where;
 };
 
 /// A whole case file.

@@ -53,7 +53,6 @@ Eigen::MatrixXd continuous_algebraic_riccati_equation(const Eigen::MatrixXd& A, 
   Eigen::MatrixXd Z(2 * n, 2 * n);
   Z << A, -G, -Q, -A.transpose();
 
-  const double scale_h = std::max(Z.norm(), 1.0);
   constexpr int kMaxIterations = 100;
   // Converged when the update is at rounding level of Z (Gardiner & Laub 1986 use a relative test).
   const double tolerance = 1e2 * std::numeric_limits<double>::epsilon() * static_cast<double>(2 * n);
@@ -74,7 +73,6 @@ Eigen::MatrixXd continuous_algebraic_riccati_equation(const Eigen::MatrixXd& A, 
       break;
     }
   }
-  (void)scale_h;
   if (!converged)
     throw NumericalError("algebraic Riccati equation: the sign-function iteration did not converge (eigenvalues "
                          "of the Hamiltonian near the imaginary axis; is (A, B) stabilizable?)");

@@ -27,7 +27,8 @@ void linearize_plan(const Model& model, const Plan& plan, const Eigen::VectorXd&
 
 RiccatiSchedule solve_riccati_differential_equation(const Model& model, const Plan& plan,
                                                     const Eigen::VectorXd& parameters, const Eigen::MatrixXd& Q,
-                                                    const Eigen::MatrixXd& R, double max_step_in_seconds) {
+                                                    const Eigen::MatrixXd& R, double max_step_in_seconds,
+                                                    const Eigen::MatrixXd* terminal_cost) {
   if (!(max_step_in_seconds > 0.0)) throw std::logic_error("solve_riccati_differential_equation: step must be > 0");
   const auto& knots = plan.times();
   RiccatiSchedule schedule;
@@ -51,7 +52,7 @@ RiccatiSchedule solve_riccati_differential_equation(const Model& model, const Pl
   linearize_plan(model, plan, parameters, tf, A, B);
   Eigen::MatrixXd P;
   try {
-    P = continuous_algebraic_riccati_equation(A, B, Q, R);
+    P = terminal_cost ? *terminal_cost : continuous_algebraic_riccati_equation(A, B, Q, R);
   } catch (const NumericalError& error) {
     throw NumericalError(std::string("LQR terminal cost at the plan's end: ") + error.what(), -1, tf);
   }

@@ -35,9 +35,11 @@ struct RiccatiSchedule {
 /// with classical RK4 on a grid that contains every plan knot and is no coarser
 /// than `max_step_in_seconds`; each grid interval is further split so that
 /// h·‖A − BK‖₁ ≤ 1, inside RK4's stability region for the linearized equation.
+/// `terminal_cost`, when given, replaces the algebraic P(t_f) (finite-horizon problems, tests).
 /// @throws NumericalError if the terminal algebraic solution fails or P stops being finite.
 RiccatiSchedule solve_riccati_differential_equation(const Model& model, const Plan& plan,
                                                     const Eigen::VectorXd& parameters, const Eigen::MatrixXd& Q,
-                                                    const Eigen::MatrixXd& R, double max_step_in_seconds);
+                                                    const Eigen::MatrixXd& R, double max_step_in_seconds,
+                                                    const Eigen::MatrixXd* terminal_cost = nullptr);
 
 }  // namespace sigmatube::model

@@ -1,0 +1,149 @@
+// SPDX-License-Identifier: MIT
+#include "sigmatube/model/closed_loop.h"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <sstream>
+#include <stdexcept>
+
+#include "nearest_name.h"
+#include "sigmatube/core/error.h"
+#include "sigmatube/model/controller.h"
+#include "sigmatube/model/integrator.h"
+#include "sigmatube/model/plan.h"
+
+namespace sigmatube::model {
+
+ClosedLoop::ClosedLoop(std::shared_ptr<const Model> model, const casefile::CaseOptions& options)
+    : model_(std::move(model)), simulation_(options.simulation) {
+  if (!model_) throw std::logic_error("ClosedLoop: no model");
+  const int n = model_->state_count(), m = model_->input_count();
+  // Validates step and tolerances before the (possibly long) Riccati solve.
+  OdeIntegrator validate(simulation_, n);
+  if (!(simulation_.report_every_in_seconds >= 0.0) || !std::isfinite(simulation_.report_every_in_seconds)) {
+    SourceLocation where = simulation_.where;
+    where.key = "simulation.report_every";
+    throw InputError(where, "must be ≥ 0 seconds (0 = report at the plan's times)");
+  }
+
+  plan_ = std::make_unique<Plan>(options.plan, *model_);
+
+  input_low_ = Eigen::VectorXd::Constant(m, -std::numeric_limits<double>::infinity());
+  input_high_ = Eigen::VectorXd::Constant(m, std::numeric_limits<double>::infinity());
+  const auto& inputs = model_->input_names();
+  for (const auto& limit : options.control.limits) {
+    SourceLocation where = limit.where;
+    if (where.key.empty()) where.key = "control.limits." + limit.input;
+    const auto it = std::find(inputs.begin(), inputs.end(), limit.input);
+    if (it == inputs.end())
+      throw InputError(where, "limit for unknown input '" + limit.input + "' of model '" + model_->name() + "'" +
+                                  detail::suggestion(limit.input, inputs));
+    if (!(limit.low <= limit.high) || std::isnan(limit.low) || std::isnan(limit.high))
+      throw InputError(where, "limits must be [low, high] with low ≤ high");
+    const auto i = static_cast<Eigen::Index>(it - inputs.begin());
+    input_low_(i) = limit.low;
+    input_high_(i) = limit.high;
+  }
+
+  controller_ = make_controller(options.control, *model_, *plan_, simulation_.step_in_seconds);
+
+  const double t0 = plan_->start_time(), tf = plan_->end_time();
+  if (simulation_.report_every_in_seconds == 0.0) {
+    report_times_ = plan_->times();
+  } else {
+    const double every = simulation_.report_every_in_seconds;
+    // Grid points closer than this to tf are merged with tf rather than reported twice.
+    const double merge = 1e-9 * (tf - t0);
+    for (long long k = 0;; ++k) {
+      const double t = t0 + static_cast<double>(k) * every;
+      if (t >= tf - merge) break;
+      report_times_.push_back(t);
+    }
+    report_times_.push_back(tf);
+  }
+
+  output_names_ = model_->state_names();
+  const auto& derived = model_->derived_output_names();
+  output_names_.insert(output_names_.end(), derived.begin(), derived.end());
+  for (const auto& input : inputs) output_names_.push_back("cmd." + input);
+}
+
+ClosedLoop::~ClosedLoop() = default;
+
+Perturbation ClosedLoop::nominal() const {
+  const int n = model_->state_count(), m = model_->input_count();
+  Perturbation p;
+  p.initial_offset = Eigen::VectorXd::Zero(n);
+  p.parameters = model_->parameters();
+  p.input_scale = Eigen::VectorXd::Ones(m);
+  p.input_bias = Eigen::VectorXd::Zero(m);
+  p.disturbance = Eigen::MatrixXd::Zero(0, n);
+  return p;
+}
+
+void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixXd> outputs, long long sample) const {
+  const int n = model_->state_count(), m = model_->input_count(), n_derived = model_->derived_output_count();
+  const auto T = static_cast<Eigen::Index>(report_times_.size());
+  if (perturbation.initial_offset.size() != n || perturbation.parameters.size() != model_->parameter_count() ||
+      perturbation.input_scale.size() != m || perturbation.input_bias.size() != m)
+    throw std::logic_error("ClosedLoop::run: perturbation sizes do not match the model");
+  const bool disturbed = perturbation.disturbance.rows() > 0;
+  if (disturbed && (perturbation.disturbance.rows() != T || perturbation.disturbance.cols() != n))
+    throw std::logic_error("ClosedLoop::run: disturbance must be [report times, states]");
+  if (outputs.rows() != T || outputs.cols() != output_count())
+    throw std::logic_error("ClosedLoop::run: outputs must be [report times, output_count()]");
+
+  // Work arrays of this run; the right-hand side below allocates nothing.
+  Eigen::VectorXd x_ref(n), u_ff(m), u_cmd(m), u_app(m), x(n);
+  const double* p = perturbation.parameters.data();
+
+  // Evaluates u_cmd and u_app at (t, state).
+  auto inputs_at = [&](double t, const double* state) {
+    plan_->evaluate(t, x_ref.data(), u_ff.data());
+    controller_->command(t, state, x_ref.data(), u_ff.data(), u_cmd.data());
+    for (int i = 0; i < m; ++i)
+      u_app(i) = std::clamp(perturbation.input_scale(i) * u_cmd(i) + perturbation.input_bias(i), input_low_(i),
+                            input_high_(i));
+  };
+
+  const OdeIntegrator::Rhs rhs = [&](double t, const double* state, double* dxdt) {
+    inputs_at(t, state);
+    model_->rhs(t, state, u_app.data(), p, dxdt);
+    if (disturbed) {
+      // Piecewise linear between report times, held constant outside.
+      const auto& times = report_times_;
+      Eigen::Index k = 0;
+      double w = 0.0;
+      if (t >= times.back()) {
+        k = T - 1;
+      } else if (t > times.front()) {
+        k = static_cast<Eigen::Index>(std::upper_bound(times.begin(), times.end(), t) - times.begin()) - 1;
+        w = (t - times[static_cast<std::size_t>(k)]) /
+            (times[static_cast<std::size_t>(k) + 1] - times[static_cast<std::size_t>(k)]);
+      }
+      const Eigen::Index k1 = std::min<Eigen::Index>(k + 1, T - 1);
+      for (int i = 0; i < n; ++i)
+        dxdt[i] += (1.0 - w) * perturbation.disturbance(k, i) + w * perturbation.disturbance(k1, i);
+    }
+  };
+
+  const OdeIntegrator::Observer observe = [&](std::size_t k, double t, const double* state) {
+    const auto row = static_cast<Eigen::Index>(k);
+    inputs_at(t, state);
+    for (int i = 0; i < n; ++i) outputs(row, i) = state[i];
+    if (n_derived > 0) {
+      // Derived outputs see the applied (saturated) input, like the dynamics do.
+      Eigen::VectorXd y(n_derived);
+      model_->derived_outputs(t, state, u_app.data(), p, y.data());
+      for (int j = 0; j < n_derived; ++j) outputs(row, n + j) = y(j);
+    }
+    for (int i = 0; i < m; ++i) outputs(row, n + n_derived + i) = u_cmd(i);
+  };
+
+  x = plan_->reference_state(report_times_.front()) + perturbation.initial_offset;
+  OdeIntegrator integrator(simulation_, n);
+  integrator.integrate(rhs, report_times_, x.data(), observe, sample, &model_->state_names());
+}
+
+}  // namespace sigmatube::model

@@ -23,8 +23,18 @@ const boost::math::normal_distribution<double> kStandardNormal(0.0, 1.0);
 
 double lower_tail(double z) { return boost::math::cdf(kStandardNormal, z); }
 double upper_tail(double z) { return boost::math::cdf(boost::math::complement(kStandardNormal, z)); }
-double lower_quantile(double p) { return boost::math::quantile(kStandardNormal, p); }
-double upper_quantile(double q) { return boost::math::quantile(boost::math::complement(kStandardNormal, q)); }
+// Φ⁻¹(p) and Φ⁻¹(1 − q); the end points give ±∞ (which the callers clamp to
+// the support) where Boost would raise an overflow error.
+double lower_quantile(double p) {
+  if (p <= 0.0) return -std::numeric_limits<double>::infinity();
+  if (p >= 1.0) return std::numeric_limits<double>::infinity();
+  return boost::math::quantile(kStandardNormal, p);
+}
+double upper_quantile(double q) {
+  if (q <= 0.0) return std::numeric_limits<double>::infinity();
+  if (q >= 1.0) return -std::numeric_limits<double>::infinity();
+  return boost::math::quantile(boost::math::complement(kStandardNormal, q));
+}
 
 // Relative asymmetry a covariance may have and still count as symmetric: a
 // matrix typed as decimals in a case file is symmetric to the last digit, so
@@ -111,7 +121,9 @@ double Germ::ScalarMap::value(double xi) const {
       // they are small, so bounds far out in either tail keep their digits.
       const double alpha = (low - offset) / slope;
       const double beta = (high - offset) / slope;
-      const double p = lower_tail(xi), q = upper_tail(xi);  // Φ(ξ), 1 − Φ(ξ)
+      // p = the germ's CDF at ξ, q = 1 − p.
+      const double p = uniform_germ ? 0.5 * (1.0 + xi) : lower_tail(xi);
+      const double q = uniform_germ ? 0.5 * (1.0 - xi) : upper_tail(xi);
       double standardized;
       if (alpha >= 0.0) {
         standardized = upper_quantile(q * upper_tail(alpha) + p * upper_tail(beta));
@@ -339,7 +351,13 @@ Germ Germ::build(const std::vector<casefile::UncertainOptions>& inputs, const Ta
                 "the window [" + number(entry.low) + ", " + number(entry.high) +
                     "] holds no representable probability of the normal(" + number(entry.mean[0]) + ", " +
                     number(entry.std[0]) + ")");
-        germ.specs_.push_back({Family::hermite});
+        // Density ratio over the window: the normal density peaks at the point of
+        // the window nearest the mean and is least at the end farthest from it.
+        const double nearest = alpha > 0.0 ? alpha : beta < 0.0 ? beta : 0.0;
+        const double farthest = std::max(std::abs(alpha), std::abs(beta));
+        block.map.uniform_germ =
+            std::exp(-0.5 * (farthest * farthest - nearest * nearest)) >= kFlatTruncationRatio;
+        germ.specs_.push_back({block.map.uniform_germ ? Family::legendre : Family::hermite});
         germ.names_.push_back(entry.name);
         break;
       }

@@ -200,6 +200,28 @@ TEST(GermMoments, TruncatedNormalFarInTheLowerTailMatchesScipyTruncnorm) {
   expect_moments(u, scipy_moments("stats.truncnorm.stats(-8.0, -6.0, loc=1.0, scale=2.0, moments='mv')"));
 }
 
+TEST(GermMoments, NarrowTruncatedNormalTakesAUniformGermAndMatchesScipyTruncnorm) {
+  // Density ratio over [−1, 1.5] standard deviations: exp(−(1.5² − 0)/2) ≈ 0.32 ≥ 0.2.
+  auto u = entry("truncnorm-flat", "parameter.k", DistributionKind::truncated_normal);
+  u.mean = {10.0};
+  u.std = {3.0};
+  u.low = 7.0;
+  u.high = 14.5;
+  EXPECT_EQ(Germ::build({u}, test_space()).specs()[0].family, Family::legendre);
+  expect_moments(u, scipy_moments("stats.truncnorm.stats(-1.0, 1.5, loc=10.0, scale=3.0, moments='mv')"));
+}
+
+TEST(GermMoments, NarrowTruncatedNormalFarInTheTailMatchesScipyTruncnorm) {
+  // [6, 6.2] standard deviations: ratio exp(−(6.2² − 6²)/2) ≈ 0.30, a uniform germ in the far tail.
+  auto u = entry("truncnorm-flat-tail", "parameter.k", DistributionKind::truncated_normal);
+  u.mean = {0.0};
+  u.std = {1.0};
+  u.low = 6.0;
+  u.high = 6.2;
+  EXPECT_EQ(Germ::build({u}, test_space()).specs()[0].family, Family::legendre);
+  expect_moments(u, scipy_moments("stats.truncnorm.stats(6.0, 6.2, moments='mv')"));
+}
+
 // ---------------------------------------------------------------------------
 // Vector normal.
 
@@ -403,6 +425,27 @@ TEST(GermApply, GaussianProcessTruncatedByEnergyKeepsTheFewestModes) {
   ASSERT_GE(kept, 2);
   EXPECT_LT(modes.cumulative_fraction(kept - 2), 0.95);
   EXPECT_EQ(germ.names().back(), "drift[" + std::to_string(kept - 1) + "]");
+}
+
+TEST(GermApply, TruncatedNormalStaysInItsWindowAtExtremeGermPoints) {
+  // Windows whose end probabilities underflow in double (Φ(−45) ≈ 1e-442): the
+  // map must still return a point of the closed window, never NaN or a throw.
+  for (const auto& [low, high] : std::vector<std::pair<double, double>>{{-45.0, -37.0}, {37.0, 45.0}, {-1.0, 1.0},
+                                                                          {37.0, 37.1}, {-3.0, 50.0}}) {
+    auto u = entry("window", "parameter.k", DistributionKind::truncated_normal);
+    u.mean = {0.0};
+    u.std = {1.0};
+    u.low = low;
+    u.high = high;
+    const Germ germ = Germ::build({u}, test_space());
+    const bool uniform = germ.specs()[0].family == Family::legendre;
+    for (double xi : uniform ? std::vector<double>{-1.0, -0.999, 0.0, 0.999, 1.0}
+                             : std::vector<double>{-60.0, -8.0, 0.0, 8.0, 60.0}) {
+      const double x = germ.physical_values(&xi).at(0).value;
+      EXPECT_GE(x, low) << "window [" << low << ", " << high << "] xi " << xi;
+      EXPECT_LE(x, high) << "window [" << low << ", " << high << "] xi " << xi;
+    }
+  }
 }
 
 // ---------------------------------------------------------------------------

@@ -11,7 +11,12 @@
 //   gamma                  laguerre, a = shape-1,  x = scale·ξ
 //   lognormal, truncated-normal, triangular
 //                          isoprobabilistic map x = F⁻¹(Φ(ξ)) from a hermite ξ
-//                          (docs/methods.md says why hermite)
+//                          (Rosenblatt, Ann. Math. Stat. 23, 1952; docs/methods.md
+//                          says why hermite), except:
+//   truncated-normal whose density is nearly flat on its window,
+//   min φ / max φ ≥ kFlatTruncationRatio:
+//                          legendre, x = F⁻¹((ξ + 1)/2) (converges faster there,
+//                          measured in docs/methods.md, "Germ")
 //   gaussian-process       Karhunen–Loève on the report grid, one hermite ξ per
 //                          mode, named "name[k]" (germ/karhunen_loeve.h)
 //
@@ -41,6 +46,10 @@
 #include "sigmatube/model/closed_loop.h"
 
 namespace sigmatube::germ {
+
+/// A truncated normal whose density over [low, high] varies by less than this
+/// factor (min/max) gets a uniform (legendre) germ instead of a hermite one.
+inline constexpr double kFlatTruncationRatio = 0.2;
 
 /// What the Karhunen–Loève truncation of one gaussian-process input kept.
 struct KarhunenLoeveSummary {
@@ -119,6 +128,7 @@ class Germ {
     double offset = 0.0, slope = 1.0;      // affine: x = offset + slope·ξ; truncated: mean, std
     double low = 0.0, mode = 0.0, high = 0.0;  // truncated normal, triangular bounds
     double mu = 0.0, sigma = 0.0;          // lognormal
+    bool uniform_germ = false;             // truncated normal: ξ ~ U(-1, 1) instead of N(0, 1)
     double value(double xi) const;
   };
   enum class BlockKind { scalar, vector_normal, karhunen_loeve };

@@ -231,7 +231,10 @@ Germ Germ::build(const std::vector<casefile::UncertainOptions>& inputs, const Ta
     switch (entry.distribution) {
       case DistributionKind::normal: {
         if (!vector_normal) {
-          require(entry.mean.size() == 1, entry, "mean", "a scalar normal needs one mean value");
+          require(entry.mean.size() == 1, entry, "mean",
+                  entry.mean.size() > 1 ? "a normal with " + std::to_string(entry.mean.size()) +
+                                              " mean values needs as many applies_to targets, one per component"
+                                        : std::string("a normal needs a mean"));
           double std = 0.0;
           if (!entry.std.empty()) {
             require(entry.std.size() == 1, entry, "std", "a scalar normal needs one std value");

@@ -1,0 +1,272 @@
+// SPDX-License-Identifier: MIT
+#include "sigmatube/constraints/violation_statistics.h"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <sstream>
+#include <stdexcept>
+
+#include "sigmatube/core/error.h"
+#include "sigmatube/core/parallel.h"
+
+namespace sigmatube::constraints {
+namespace {
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+// Chunks handed to the threads at once; fixed so that the merge order never
+// depends on the thread count, small so that at most this many accumulators live.
+constexpr long long kChunksPerWave = 16;
+
+// Index m of the order statistic x_(m) used as the ε-quantile: the largest m with
+// m/N ≤ ε, computed with the same double division as p̂ = V/N so that
+// x_(m) ≥ 0 ⟺ V ≤ m ⟺ p̂ ≤ ε holds without a rounding gap.
+long long quantile_index(double epsilon, long long n) {
+  if (n <= 0) return 0;
+  const double dn = static_cast<double>(n);
+  long long m = static_cast<long long>(std::floor(epsilon * dn));
+  m = std::clamp<long long>(m, 0, n - 1);
+  while (m + 1 <= n - 1 && static_cast<double>(m + 1) / dn <= epsilon) ++m;
+  while (m > 0 && static_cast<double>(m) / dn > epsilon) --m;
+  return m;
+}
+
+void push_bounded(std::vector<double>& heap, std::size_t k, double x) {
+  if (heap.size() < k) {
+    heap.push_back(x);
+    std::push_heap(heap.begin(), heap.end());
+  } else if (x < heap.front()) {
+    std::pop_heap(heap.begin(), heap.end());
+    heap.back() = x;
+    std::push_heap(heap.begin(), heap.end());
+  }
+}
+
+double order_statistic(std::vector<double> heap, long long m) {
+  if (static_cast<std::size_t>(m) >= heap.size()) throw std::logic_error("ViolationStatistics: quantile heap too small");
+  std::nth_element(heap.begin(), heap.begin() + m, heap.end());
+  return heap[static_cast<std::size_t>(m)];
+}
+
+// Chan–Golub–LeVeque merge of (n_a, mean_a, M2_a) with (n_b, mean_b, M2_b).
+void merge_moments(long long na, double& mean_a, double& m2_a, long long nb, double mean_b, double m2_b) {
+  if (nb == 0) return;
+  if (na == 0) {
+    mean_a = mean_b;
+    m2_a = m2_b;
+    return;
+  }
+  const double n = static_cast<double>(na + nb);
+  const double delta = mean_b - mean_a;
+  mean_a += delta * static_cast<double>(nb) / n;
+  m2_a += m2_b + delta * delta * static_cast<double>(na) * static_cast<double>(nb) / n;
+}
+}  // namespace
+
+double ConstraintStatistics::governing_probability() const {
+  if (scope == casefile::ConstraintScope::path) return path_probability;
+  double worst = kNaN;
+  for (Eigen::Index t = 0; t < pointwise_probability.size(); ++t) {
+    if (!in_window[static_cast<std::size_t>(t)]) continue;
+    if (std::isnan(worst) || pointwise_probability[t] > worst) worst = pointwise_probability[t];
+  }
+  return worst;
+}
+
+ViolationStatistics::ViolationStatistics(const std::vector<Constraint>& constraints, Eigen::VectorXd times_in_seconds,
+                                         int n_outputs, long long max_samples)
+    : constraints_(&constraints), times_(std::move(times_in_seconds)), n_outputs_(n_outputs), max_samples_(max_samples) {
+  if (n_outputs <= 0 || max_samples < 0) throw std::logic_error("ViolationStatistics: bad sizes");
+  const std::size_t T = static_cast<std::size_t>(times_.size());
+  per_.resize(constraints.size());
+  for (std::size_t j = 0; j < constraints.size(); ++j) {
+    const Constraint& constraint = constraints[j];
+    bool any = false;
+    for (Eigen::Index t = 0; t < times_.size(); ++t) any = any || constraint.in_window(times_[t]);
+    if (!any) {
+      std::ostringstream msg;
+      msg << "constraint '" << constraint.name() << "': its window [" << constraint.window().first << ", "
+          << constraint.window().second << "] s contains no report time";
+      SourceLocation where = constraint.where();
+      where.key = where.key.empty() ? "window" : where.key + ".window";
+      throw InputError(where, msg.str());
+    }
+    PerConstraint& p = per_[j];
+    p.violations.assign(T, 0);
+    p.mean.assign(T, 0.0);
+    p.m2.assign(T, 0.0);
+    p.smallest.assign(T, {});
+    p.k = static_cast<std::size_t>(quantile_index(constraint.max_probability(), std::max<long long>(max_samples, 1)) + 1);
+  }
+}
+
+void ViolationStatistics::path_minimum(const Constraint& constraint, const Eigen::VectorXd& times, int n_outputs,
+                                       const Eigen::Ref<const Eigen::MatrixXd>& Y, Eigen::Ref<Eigen::VectorXd> minimum) {
+  minimum.setConstant(std::numeric_limits<double>::infinity());
+  Eigen::VectorXd c(Y.rows());
+  for (Eigen::Index t = 0; t < times.size(); ++t) {
+    if (!constraint.in_window(times[t])) continue;
+    constraint.clearance(Y.middleCols(t * n_outputs, n_outputs), times[t], c);
+    minimum = minimum.cwiseMin(c);
+  }
+}
+
+void ViolationStatistics::add(const Eigen::Ref<const Eigen::MatrixXd>& Y, long long first_sample) {
+  add(Y, std::vector<std::uint8_t>(static_cast<std::size_t>(Y.rows()), 1), first_sample);
+}
+
+void ViolationStatistics::add(const Eigen::Ref<const Eigen::MatrixXd>& Y, const std::vector<std::uint8_t>& keep,
+                              long long first_sample) {
+  const Eigen::Index T = times_.size();
+  if (Y.cols() != T * n_outputs_) throw std::logic_error("ViolationStatistics::add: Y has the wrong number of columns");
+  if (static_cast<Eigen::Index>(keep.size()) != Y.rows()) throw std::logic_error("ViolationStatistics::add: mask size");
+  const Eigen::Index rows = Y.rows();
+  long long nb = 0;
+  for (auto k : keep) nb += k ? 1 : 0;
+  if (n_ + nb > max_samples_) throw std::logic_error("ViolationStatistics::add: more samples than max_samples");
+  if (nb == 0) return;
+  std::vector<std::uint8_t> joint(static_cast<std::size_t>(rows), 0);
+  Eigen::VectorXd c(rows), path_min(rows);
+  for (std::size_t j = 0; j < per_.size(); ++j) {
+    const Constraint& constraint = (*constraints_)[j];
+    PerConstraint& p = per_[j];
+    path_min.setConstant(std::numeric_limits<double>::infinity());
+    for (Eigen::Index t = 0; t < T; ++t) {
+      constraint.clearance(Y.middleCols(t * n_outputs_, n_outputs_), times_[t], c);
+      const bool window = constraint.in_window(times_[t]);
+      const std::size_t ts = static_cast<std::size_t>(t);
+      double sum = 0.0;
+      for (Eigen::Index i = 0; i < rows; ++i) {
+        if (!keep[static_cast<std::size_t>(i)]) continue;
+        const double x = c[i];
+        if (std::isnan(x)) {
+          std::ostringstream msg;
+          msg << "constraint '" << constraint.name() << "': clearance is NaN";
+          throw NumericalError(msg.str(), first_sample < 0 ? -1 : first_sample + i, times_[t]);
+        }
+        sum += x;
+        push_bounded(p.smallest[ts], p.k, x);
+        if (window) {
+          if (x < 0.0) ++p.violations[ts];
+          path_min[i] = std::min(path_min[i], x);
+        }
+      }
+      // Two passes within the chunk, then one Chan merge into the running moments.
+      const double chunk_mean = sum / static_cast<double>(nb);
+      double chunk_m2 = 0.0;
+      for (Eigen::Index i = 0; i < rows; ++i) {
+        if (!keep[static_cast<std::size_t>(i)]) continue;
+        const double d = c[i] - chunk_mean;
+        chunk_m2 += d * d;
+      }
+      merge_moments(n_, p.mean[ts], p.m2[ts], nb, chunk_mean, chunk_m2);
+    }
+    double path_sum = 0.0;
+    for (Eigen::Index i = 0; i < rows; ++i) {
+      if (!keep[static_cast<std::size_t>(i)]) continue;
+      path_sum += path_min[i];
+      push_bounded(p.smallest_path, p.k, path_min[i]);
+      if (path_min[i] < 0.0) {
+        ++p.path_violations;
+        joint[static_cast<std::size_t>(i)] = 1;
+      }
+    }
+    double unused_m2 = 0.0;
+    merge_moments(n_, p.path_mean, unused_m2, nb, path_sum / static_cast<double>(nb), 0.0);
+  }
+  for (Eigen::Index i = 0; i < rows; ++i) joint_violations_ += (keep[static_cast<std::size_t>(i)] && joint[static_cast<std::size_t>(i)]) ? 1 : 0;
+  n_ += nb;
+}
+
+void ViolationStatistics::merge(const ViolationStatistics& later) {
+  if (later.per_.size() != per_.size() || later.times_.size() != times_.size()) {
+    throw std::logic_error("ViolationStatistics::merge: accumulators of different shape");
+  }
+  if (n_ + later.n_ > max_samples_) throw std::logic_error("ViolationStatistics::merge: more samples than max_samples");
+  for (std::size_t j = 0; j < per_.size(); ++j) {
+    PerConstraint& a = per_[j];
+    const PerConstraint& b = later.per_[j];
+    for (std::size_t t = 0; t < a.violations.size(); ++t) {
+      a.violations[t] += b.violations[t];
+      merge_moments(n_, a.mean[t], a.m2[t], later.n_, b.mean[t], b.m2[t]);
+      for (double x : b.smallest[t]) push_bounded(a.smallest[t], a.k, x);
+    }
+    for (double x : b.smallest_path) push_bounded(a.smallest_path, a.k, x);
+    a.path_violations += b.path_violations;
+    double unused_m2 = 0.0;
+    merge_moments(n_, a.path_mean, unused_m2, later.n_, b.path_mean, 0.0);
+  }
+  joint_violations_ += later.joint_violations_;
+  n_ += later.n_;
+}
+
+ViolationResults ViolationStatistics::results() const {
+  ViolationResults out;
+  out.samples = n_;
+  const double n = static_cast<double>(n_);
+  const Eigen::Index T = times_.size();
+  auto standard_error = [n](double p) { return std::sqrt(p * (1.0 - p) / n); };
+  for (std::size_t j = 0; j < per_.size(); ++j) {
+    const Constraint& constraint = (*constraints_)[j];
+    const PerConstraint& p = per_[j];
+    ConstraintStatistics s;
+    s.name = constraint.name();
+    s.max_probability = constraint.max_probability();
+    s.scope = constraint.scope();
+    s.in_window.resize(static_cast<std::size_t>(T));
+    s.pointwise_violations = p.violations;
+    s.pointwise_probability.setConstant(T, kNaN);
+    s.pointwise_standard_error.setConstant(T, kNaN);
+    s.clearance_mean.setConstant(T, kNaN);
+    s.clearance_std.setConstant(T, kNaN);
+    s.clearance_quantile.setConstant(T, kNaN);
+    s.path_violations = p.path_violations;
+    s.path_probability = n_ > 0 ? static_cast<double>(p.path_violations) / n : kNaN;
+    s.path_standard_error = n_ > 0 ? standard_error(s.path_probability) : kNaN;
+    s.path_margin = kNaN;
+    s.path_minimum_mean = n_ > 0 ? p.path_mean : kNaN;
+    const long long m = quantile_index(constraint.max_probability(), n_);
+    for (Eigen::Index t = 0; t < T; ++t) {
+      const std::size_t ts = static_cast<std::size_t>(t);
+      s.in_window[ts] = constraint.in_window(times_[t]) ? 1 : 0;
+      if (n_ == 0) continue;
+      if (s.in_window[ts]) {
+        s.pointwise_probability[t] = static_cast<double>(p.violations[ts]) / n;
+        s.pointwise_standard_error[t] = standard_error(s.pointwise_probability[t]);
+      }
+      s.clearance_mean[t] = p.mean[ts];
+      s.clearance_std[t] = n_ > 1 ? std::sqrt(p.m2[ts] / (n - 1.0)) : kNaN;
+      s.clearance_quantile[t] = order_statistic(p.smallest[ts], m);
+    }
+    if (n_ > 0) s.path_margin = order_statistic(p.smallest_path, m);
+    out.constraints.push_back(std::move(s));
+  }
+  out.joint_violations = joint_violations_;
+  out.joint_probability = n_ > 0 ? static_cast<double>(joint_violations_) / n : kNaN;
+  out.joint_standard_error = n_ > 0 ? standard_error(out.joint_probability) : kNaN;
+  return out;
+}
+
+ViolationResults stream_violation_statistics(
+    const std::vector<Constraint>& constraints, const Eigen::VectorXd& times, int n_outputs, long long count,
+    long long chunk, int threads, const std::function<void(long long, long long, Eigen::MatrixXd&)>& fill) {
+  if (count < 0 || chunk <= 0) throw std::logic_error("stream_violation_statistics: bad count or chunk");
+  ViolationStatistics total(constraints, times, n_outputs, count);
+  const long long n_chunks = (count + chunk - 1) / chunk;
+  for (long long wave = 0; wave < n_chunks; wave += kChunksPerWave) {
+    const long long in_wave = std::min(kChunksPerWave, n_chunks - wave);
+    std::vector<ViolationStatistics> partial;
+    partial.reserve(static_cast<std::size_t>(in_wave));
+    for (long long w = 0; w < in_wave; ++w) partial.emplace_back(constraints, times, n_outputs, count);
+    parallel_for(static_cast<std::size_t>(in_wave), threads, [&](std::size_t w) {
+      const long long begin = (wave + static_cast<long long>(w)) * chunk;
+      const long long end = std::min(count, begin + chunk);
+      Eigen::MatrixXd Y(end - begin, times.size() * n_outputs);
+      fill(begin, end, Y);
+      partial[w].add(Y, begin);
+    });
+    for (const auto& p : partial) total.merge(p);
+  }
+  return total.results();
+}
+
+}  // namespace sigmatube::constraints

@@ -1,0 +1,260 @@
+// SPDX-License-Identifier: MIT
+#include "sigmatube/montecarlo/monte_carlo.h"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <limits>
+#include <sstream>
+#include <stdexcept>
+
+#include "sigmatube/core/counter_rng.h"
+#include "sigmatube/core/error.h"
+#include "sigmatube/core/parallel.h"
+
+namespace sigmatube::montecarlo {
+namespace {
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+// Fixed number of chunks in flight: the merge order never depends on the thread count.
+constexpr long long kChunksPerWave = 16;
+
+struct Partial {
+  explicit Partial(const std::vector<constraints::Constraint>& c, const Eigen::VectorXd& times, int n_out, long long max_n,
+                   Eigen::Index columns)
+      : stats(c, times, n_out, max_n), mean(Eigen::VectorXd::Zero(columns)), m2(Eigen::VectorXd::Zero(columns)),
+        squared_error(Eigen::VectorXd::Zero(n_out)) {}
+  constraints::ViolationStatistics stats;
+  long long successful = 0, failed = 0, saturated = 0;
+  Eigen::VectorXd mean, m2;       // per column of Y
+  Eigen::VectorXd squared_error;  // per output, summed over runs and times
+  std::vector<std::pair<long long, std::string>> failures;
+};
+
+void merge_moments(long long na, Eigen::VectorXd& mean_a, Eigen::VectorXd& m2_a, long long nb, const Eigen::VectorXd& mean_b,
+                   const Eigen::VectorXd& m2_b) {
+  if (nb == 0) return;
+  if (na == 0) {
+    mean_a = mean_b;
+    m2_a = m2_b;
+    return;
+  }
+  const double n = static_cast<double>(na + nb);
+  const Eigen::VectorXd delta = mean_b - mean_a;
+  mean_a += delta * (static_cast<double>(nb) / n);
+  m2_a += m2_b + delta.cwiseProduct(delta) * (static_cast<double>(na) * static_cast<double>(nb) / n);
+}
+
+std::string format_g(double value) {
+  char buffer[48];
+  std::snprintf(buffer, sizeof buffer, "%.3g", value);
+  return buffer;
+}
+}  // namespace
+
+std::vector<SaturationLimit> saturation_limits(const std::vector<casefile::InputLimit>& limits,
+                                               const std::vector<std::string>& output_names) {
+  std::vector<SaturationLimit> out;
+  for (const auto& limit : limits) {
+    const std::string name = "cmd." + limit.input;
+    const auto it = std::find(output_names.begin(), output_names.end(), name);
+    if (it == output_names.end()) throw InputError(limit.where, "no output '" + name + "' for the limit on input '" + limit.input + "'");
+    out.push_back({static_cast<int>(it - output_names.begin()), limit.low, limit.high});
+  }
+  return out;
+}
+
+void germ_point(const std::vector<germ::FamilySpec>& families, unsigned long long seed, long long sample, double* xi) {
+  const CounterRng rng(seed);
+  for (std::size_t j = 0; j < families.size(); ++j) {
+    xi[j] = germ::from_standard_normal(families[j], rng.normal(static_cast<std::uint64_t>(sample), j));
+  }
+}
+
+std::string MonteCarloResult::summary() const {
+  std::ostringstream out;
+  out << "Monte Carlo: " << successful_runs << " of " << runs << " runs succeeded";
+  if (failed_runs > 0) {
+    out << "; " << failed_runs << " failed and are excluded from every statistic";
+    for (const auto& [sample, message] : first_failures) out << "\n  run " << sample << ": " << message;
+  }
+  for (const auto& c : constraints) {
+    out << "\n  " << c.name << ": path probability " << format_g(c.path_probability) << " ("
+        << c.path_violations << " of " << successful_runs << "), " << format_g(100 * confidence) << "% interval ["
+        << format_g(c.path_interval.lower) << ", " << format_g(c.path_interval.upper) << "]";
+  }
+  if (!constraints.empty()) {
+    out << "\n  any constraint: " << format_g(joint_probability) << ", interval [" << format_g(joint_interval.lower) << ", "
+        << format_g(joint_interval.upper) << "]";
+  }
+  if (saturated_runs > 0) out << "\n  " << saturated_runs << " runs saturated a commanded input";
+  return out.str();
+}
+
+MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, const std::vector<germ::FamilySpec>& families,
+                                 const Eigen::VectorXd& times, int n_outputs,
+                                 const std::vector<constraints::Constraint>& constraints, const RunSample& run_sample,
+                                 const MonteCarloRunOptions& run_options, const SurrogateEvaluator& surrogate,
+                                 const Progress& progress) {
+  if (options.runs < 0 || n_outputs <= 0 || times.size() == 0 || !run_sample || run_options.chunk_size <= 0) {
+    throw std::logic_error("run_monte_carlo: bad sizes or missing run callback");
+  }
+  for (const auto& s : run_options.saturation) {
+    if (s.output < 0 || s.output >= n_outputs) throw std::logic_error("run_monte_carlo: saturation output out of range");
+  }
+  const long long runs = options.runs;
+  const Eigen::Index T = times.size();
+  const Eigen::Index columns = T * n_outputs;
+  const int d = static_cast<int>(families.size());
+  const long long chunk = run_options.chunk_size;
+  const long long kept = std::min<long long>(std::max(run_options.kept_runs, 0), runs);
+
+  MonteCarloResult result;
+  result.runs = runs;
+  result.confidence = options.confidence;
+  result.kept_outputs.setConstant(kept, columns, kNaN);
+  for (long long i = 0; i < kept; ++i) result.kept_samples.push_back(i);
+
+  Partial total(constraints, times, n_outputs, runs, columns);
+  const long long n_chunks = (runs + chunk - 1) / chunk;
+  for (long long wave = 0; wave < n_chunks; wave += kChunksPerWave) {
+    const long long in_wave = std::min(kChunksPerWave, n_chunks - wave);
+    std::vector<Partial> partial;
+    partial.reserve(static_cast<std::size_t>(in_wave));
+    for (long long w = 0; w < in_wave; ++w) partial.emplace_back(constraints, times, n_outputs, runs, columns);
+    parallel_for(static_cast<std::size_t>(in_wave), run_options.threads, [&](std::size_t w) {
+      Partial& p = partial[w];
+      const long long begin = (wave + static_cast<long long>(w)) * chunk;
+      const long long end = std::min(runs, begin + chunk);
+      const Eigen::Index rows = end - begin;
+      Eigen::MatrixXd Y = Eigen::MatrixXd::Zero(rows, columns);
+      Eigen::MatrixXd xi(rows, d);
+      std::vector<std::uint8_t> keep(static_cast<std::size_t>(rows), 0);
+      std::vector<double> point(static_cast<std::size_t>(d)), outputs(static_cast<std::size_t>(columns));
+      for (Eigen::Index r = 0; r < rows; ++r) {
+        const long long sample = begin + r;
+        germ_point(families, options.seed, sample, point.data());
+        for (int j = 0; j < d; ++j) xi(r, j) = point[static_cast<std::size_t>(j)];
+        std::fill(outputs.begin(), outputs.end(), kNaN);
+        std::string error;
+        if (!run_sample(point.data(), sample, outputs.data(), &error)) {
+          ++p.failed;
+          if (static_cast<int>(p.failures.size()) < run_options.reported_failures) {
+            p.failures.emplace_back(sample, error.empty() ? "run failed (no message)" : error);
+          }
+          continue;
+        }
+        keep[static_cast<std::size_t>(r)] = 1;
+        ++p.successful;
+        for (Eigen::Index c = 0; c < columns; ++c) Y(r, c) = outputs[static_cast<std::size_t>(c)];
+        if (sample < kept) result.kept_outputs.row(sample) = Y.row(r);  // each run owns its row
+        bool saturated = false;
+        for (const auto& s : run_options.saturation) {
+          for (Eigen::Index t = 0; t < T && !saturated; ++t) {
+            const double u = Y(r, t * n_outputs + s.output);
+            saturated = u < s.low || u > s.high;
+          }
+        }
+        if (saturated) ++p.saturated;
+      }
+      if (p.successful == 0) return;
+      p.stats.add(Y, keep, begin);
+      // Two-pass moments over the chunk's successful runs.
+      for (Eigen::Index r = 0; r < rows; ++r) {
+        if (keep[static_cast<std::size_t>(r)]) p.mean += Y.row(r).transpose();
+      }
+      p.mean /= static_cast<double>(p.successful);
+      for (Eigen::Index r = 0; r < rows; ++r) {
+        if (keep[static_cast<std::size_t>(r)]) p.m2 += (Y.row(r).transpose() - p.mean).cwiseAbs2();
+      }
+      if (surrogate) {
+        Eigen::MatrixXd xi_ok(p.successful, d), y_ok(p.successful, columns);
+        Eigen::Index k = 0;
+        for (Eigen::Index r = 0; r < rows; ++r) {
+          if (!keep[static_cast<std::size_t>(r)]) continue;
+          xi_ok.row(k) = xi.row(r);
+          y_ok.row(k) = Y.row(r);
+          ++k;
+        }
+        Eigen::MatrixXd values(p.successful, columns);
+        surrogate(xi_ok, values);
+        if (values.rows() != p.successful || values.cols() != columns) {
+          throw std::logic_error("run_monte_carlo: surrogate returned values of the wrong shape");
+        }
+        for (Eigen::Index c = 0; c < columns; ++c) {
+          p.squared_error[c % n_outputs] += (values.col(c) - y_ok.col(c)).squaredNorm();
+        }
+      }
+    });
+    for (auto& p : partial) {
+      total.stats.merge(p.stats);
+      merge_moments(total.successful, total.mean, total.m2, p.successful, p.mean, p.m2);
+      total.successful += p.successful;
+      total.failed += p.failed;
+      total.saturated += p.saturated;
+      total.squared_error += p.squared_error;
+      for (auto& f : p.failures) {
+        if (static_cast<int>(total.failures.size()) < run_options.reported_failures) total.failures.push_back(std::move(f));
+      }
+    }
+    if (progress) progress(std::min(runs, (wave + in_wave) * chunk), runs);
+  }
+
+  const long long n = total.successful;
+  const double nd = static_cast<double>(n);
+  result.successful_runs = n;
+  result.failed_runs = total.failed;
+  result.first_failures = std::move(total.failures);
+  result.saturated_runs = total.saturated;
+  result.saturation_fraction = n > 0 ? static_cast<double>(total.saturated) / nd : kNaN;
+  result.mean.setConstant(T, n_outputs, kNaN);
+  result.std.setConstant(T, n_outputs, kNaN);
+  result.mean_standard_error.setConstant(T, n_outputs, kNaN);
+  result.std_standard_error.setConstant(T, n_outputs, kNaN);
+  for (Eigen::Index t = 0; t < T; ++t) {
+    for (int o = 0; o < n_outputs; ++o) {
+      const Eigen::Index c = t * n_outputs + o;
+      if (n > 0) result.mean(t, o) = total.mean[c];
+      if (n > 1) {
+        const double s = std::sqrt(total.m2[c] / (nd - 1.0));
+        result.std(t, o) = s;
+        result.mean_standard_error(t, o) = s / std::sqrt(nd);
+        result.std_standard_error(t, o) = s / std::sqrt(2.0 * (nd - 1.0));
+      }
+    }
+  }
+  result.violations = total.stats.results();
+  for (const auto& s : result.violations.constraints) {
+    ConstraintMonteCarlo c;
+    c.name = s.name;
+    c.pointwise_probability = s.pointwise_probability;
+    c.path_violations = s.path_violations;
+    c.path_probability = s.path_probability;
+    c.path_interval = clopper_pearson(s.path_violations, n, options.confidence);
+    result.constraints.push_back(std::move(c));
+  }
+  result.joint_violations = result.violations.joint_violations;
+  result.joint_probability = result.violations.joint_probability;
+  result.joint_interval = clopper_pearson(result.joint_violations, n, options.confidence);
+  result.validated = static_cast<bool>(surrogate) && n > 0;
+  result.validation_rmse.setConstant(n_outputs, kNaN);
+  result.validation_relative_rmse.setConstant(n_outputs, kNaN);
+  if (result.validated) {
+    for (int o = 0; o < n_outputs; ++o) {
+      const double rmse = std::sqrt(total.squared_error[o] / (nd * static_cast<double>(T)));
+      double variance = 0.0, mean_square = 0.0;
+      for (Eigen::Index t = 0; t < T; ++t) {
+        const double s = std::isnan(result.std(t, o)) ? 0.0 : result.std(t, o);
+        variance += s * s;
+        mean_square += result.mean(t, o) * result.mean(t, o);
+      }
+      double scale = std::sqrt(variance / static_cast<double>(T));
+      const double floor = 1e-12 * std::max(1.0, std::sqrt(mean_square / static_cast<double>(T)));
+      scale = std::max(scale, floor);
+      result.validation_rmse[o] = rmse;
+      result.validation_relative_rmse[o] = rmse / scale;
+    }
+  }
+  return result;
+}
+
+}  // namespace sigmatube::montecarlo

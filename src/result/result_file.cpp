@@ -5,6 +5,7 @@
 #include <unistd.h>
 
 #include <cerrno>
+#include <cmath>
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
@@ -168,6 +169,14 @@ void write_constraint(H5::Group& parent, const ConstraintResult& c) {
   write_scalar(g, "required_backoff", c.required_backoff);
   write_scalar(g, "tolerable_radius", c.tolerable_radius);
   write_scalar(g, "radius_inflation", c.radius_inflation);
+  // Geometry: written only where the type uses it, so the layout of existing
+  // constraint groups is unchanged.
+  if (!c.position.empty()) write_strings(g, "position", c.position);
+  if (!c.center.empty()) write_vector(g, "center", c.center);
+  if (!std::isnan(c.radius)) write_scalar(g, "radius", c.radius);
+  if (!c.semi_axes.empty()) write_vector(g, "semi_axes", c.semi_axes);
+  if (!c.low.empty()) write_vector(g, "low", c.low);
+  if (!c.high.empty()) write_vector(g, "high", c.high);
   const ImportanceSamplingResult& is = c.importance_sampling;
   if (is.done) {
     H5::Group gi = g.createGroup("importance_sampling");
@@ -474,6 +483,12 @@ AnalysisResult read_all(const std::string& path) {
       c.required_backoff = reader.scalar(g, "required_backoff");
       c.tolerable_radius = reader.scalar(g, "tolerable_radius");
       c.radius_inflation = reader.scalar(g, "radius_inflation");
+      if (Reader::exists(g, "position")) c.position = reader.strings(g, "position");
+      if (Reader::exists(g, "center")) c.center = reader.doubles(g, "center");
+      if (Reader::exists(g, "radius")) c.radius = reader.scalar(g, "radius");
+      if (Reader::exists(g, "semi_axes")) c.semi_axes = reader.doubles(g, "semi_axes");
+      if (Reader::exists(g, "low")) c.low = reader.doubles(g, "low");
+      if (Reader::exists(g, "high")) c.high = reader.doubles(g, "high");
       if (Reader::exists(g, "importance_sampling")) {
         H5::Group gi = g.openGroup("importance_sampling");
         auto& is = c.importance_sampling;

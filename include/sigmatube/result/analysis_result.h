@@ -41,6 +41,14 @@ struct ConstraintResult {
   double max_probability = kNaN;
   double window[2] = {kNaN, kNaN};
 
+  // Geometry from the case file, kept so that `report` can draw the zone in a
+  // plane of outputs. Empty / NaN where the type does not use the field.
+  std::vector<std::string> position;  // output names forming p
+  std::vector<double> center;         // outside-sphere, outside-ellipsoid
+  double radius = kNaN;               // outside-sphere
+  std::vector<double> semi_axes;      // outside-ellipsoid
+  std::vector<double> low, high;      // inside-box
+
   // From the surrogate (or, without germ, from the nominal run alone).
   Eigen::VectorXd pointwise_probability;     // [T], NaN outside the window
   Eigen::VectorXd pointwise_standard_error;  // [T]

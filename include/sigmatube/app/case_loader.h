@@ -22,7 +22,7 @@ struct LoadedCase {
   std::shared_ptr<const model::Model> model;
   std::unique_ptr<model::ClosedLoop> closed_loop;
   std::unique_ptr<germ::Germ> germ;
-  std::vector<std::unique_ptr<constraints::Constraint>> constraints;
+  std::vector<constraints::Constraint> constraints;
 };
 
 /// Throws InputError for anything wrong with the case, its plan or its expressions.

@@ -363,6 +363,15 @@ TEST(GermApply, EveryTargetKindLandsInItsSlot) {
     EXPECT_NEAR(p.disturbance(i, 2), expected, 1e-14);
   }
 
+  // With every mode kept the basis B (column k = √λ_k φ_k) gives Cov[w] = B Bᵀ = the
+  // kernel matrix σ² exp(−|t_i − t_j|/ℓ) written out here from its definition.
+  const Eigen::MatrixXd& basis = germ.karhunen_loeve_basis(0);
+  const Eigen::MatrixXd covariance = basis * basis.transpose();
+  for (int i = 0; i < 4; ++i)
+    for (int j = 0; j < 4; ++j)
+      EXPECT_NEAR(covariance(i, j),
+                  0.25 * std::exp(-std::abs(space.disturbance_times[i] - space.disturbance_times[j]) / 2.0), 1e-14);
+
   // A second application to a reset perturbation reuses the storage (no reallocation).
   const double* storage = p.disturbance.data();
   p.disturbance.setZero();

@@ -201,14 +201,20 @@ CompareReport compare_results(const AnalysisResult& base, const AnalysisResult& 
       continue;
     }
 
-    const bool use_mc = b && montecarlo_usable(base, *b) && montecarlo_usable(candidate, *c);
+    // Monte Carlo numbers when every side present has them (a new constraint
+    // has only the candidate side); never a mix of estimators.
+    const bool use_mc = montecarlo_usable(candidate, *c) && (!b || montecarlo_usable(base, *b));
     if (use_mc) {
       row.source = "monte-carlo";
       row.base_runs = base.montecarlo.runs - base.montecarlo.failed_runs;
       row.candidate_runs = candidate.montecarlo.runs - candidate.montecarlo.failed_runs;
-      row.base_count = montecarlo_count(*b, row.base_runs);
       row.candidate_count = montecarlo_count(*c, row.candidate_runs);
-      row.base_probability = double(row.base_count) / double(row.base_runs);
+      if (b) {
+        row.base_count = montecarlo_count(*b, row.base_runs);
+        row.base_probability = double(row.base_count) / double(row.base_runs);
+      } else {
+        row.base_runs = 0;
+      }
       row.candidate_probability = double(row.candidate_count) / double(row.candidate_runs);
     } else {
       row.candidate_probability = surrogate_gate_probability(*c);

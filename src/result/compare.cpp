@@ -245,7 +245,8 @@ CompareReport compare_results(const AnalysisResult& base, const AnalysisResult& 
     }
     if (!std::isnan(row.candidate_probability) && !std::isnan(row.bound) && row.candidate_probability > row.bound)
       row.reasons.push_back("probability " + format_probability(row.candidate_probability) + " exceeds bound " +
-                            format_probability(row.bound));
+                            format_probability(row.bound) +
+                            (row.base_probability > row.bound ? " (the base exceeded it too)" : ""));
     if (!std::isnan(row.min_margin) && !std::isnan(row.candidate_margin) && row.candidate_margin < row.min_margin)
       row.reasons.push_back("margin " + format_value(row.candidate_margin) + " below required " +
                             format_value(row.min_margin));

@@ -201,14 +201,20 @@ CompareReport compare_results(const AnalysisResult& base, const AnalysisResult& 
       continue;
     }
 
-    const bool use_mc = b && montecarlo_usable(base, *b) && montecarlo_usable(candidate, *c);
+    // Monte Carlo numbers when every side present has them (a new constraint
+    // has only the candidate side); never a mix of estimators.
+    const bool use_mc = montecarlo_usable(candidate, *c) && (!b || montecarlo_usable(base, *b));
     if (use_mc) {
       row.source = "monte-carlo";
       row.base_runs = base.montecarlo.runs - base.montecarlo.failed_runs;
       row.candidate_runs = candidate.montecarlo.runs - candidate.montecarlo.failed_runs;
-      row.base_count = montecarlo_count(*b, row.base_runs);
       row.candidate_count = montecarlo_count(*c, row.candidate_runs);
-      row.base_probability = double(row.base_count) / double(row.base_runs);
+      if (b) {
+        row.base_count = montecarlo_count(*b, row.base_runs);
+        row.base_probability = double(row.base_count) / double(row.base_runs);
+      } else {
+        row.base_runs = 0;
+      }
       row.candidate_probability = double(row.candidate_count) / double(row.candidate_runs);
     } else {
       row.candidate_probability = surrogate_gate_probability(*c);
@@ -239,7 +245,8 @@ CompareReport compare_results(const AnalysisResult& base, const AnalysisResult& 
     }
     if (!std::isnan(row.candidate_probability) && !std::isnan(row.bound) && row.candidate_probability > row.bound)
       row.reasons.push_back("probability " + format_probability(row.candidate_probability) + " exceeds bound " +
-                            format_probability(row.bound));
+                            format_probability(row.bound) +
+                            (row.base_probability > row.bound ? " (the base exceeded it too)" : ""));
     if (!std::isnan(row.min_margin) && !std::isnan(row.candidate_margin) && row.candidate_margin < row.min_margin)
       row.reasons.push_back("margin " + format_value(row.candidate_margin) + " below required " +
                             format_value(row.min_margin));

@@ -23,13 +23,18 @@ std::string paint(const std::string& text, const char* code, bool color) {
   return color ? std::string(code) + text + kReset : text;
 }
 
-// Greedy word wrap; keeps `prefix` on every line.
-std::string wrap(const std::string& text, std::size_t width, const std::string& prefix) {
+// Greedy word wrap: `prefix` on the first line, `indent` (default: as many
+// spaces as the prefix is wide) on the others.
+std::string wrap(const std::string& text, std::size_t width, const std::string& first_prefix,
+                 std::string indent = "\x01") {
+  if (indent == "\x01") indent = std::string(display_width(first_prefix), ' ');
+  std::string prefix = first_prefix;
   std::istringstream words(text);
   std::string out, line, word;
   while (words >> word) {
     if (!line.empty() && display_width(prefix + line + " " + word) > width) {
       out += prefix + line + "\n";
+      prefix = indent;
       line.clear();
     }
     line += (line.empty() ? "" : " ") + word;
@@ -66,13 +71,9 @@ std::string interval_text(double lo, double hi) {
 
 std::string montecarlo_cell(const AnalysisResult& r, const ConstraintResult& c) {
   if (!c.has_montecarlo) return kMissingValue;
-  const double p = montecarlo_gate_probability(c);
-  double ci[2] = {c.montecarlo.path_interval[0], c.montecarlo.path_interval[1]};
-  if (c.scope != "path" && !std::isnan(p) && r.montecarlo.runs > 0) {
-    const auto n = r.montecarlo.runs - r.montecarlo.failed_runs;
-    clopper_pearson(std::llround(p * double(n)), n, r.montecarlo.confidence, ci);
-  }
-  return format_probability(p) + " " + interval_text(ci[0], ci[1]);
+  double ci[2];
+  montecarlo_gate_interval(r, c, ci);
+  return format_probability(montecarlo_gate_probability(c)) + " " + interval_text(ci[0], ci[1]);
 }
 
 std::string worst_output(const AnalysisResult& r, const Eigen::VectorXd& v, double* value) {
@@ -110,6 +111,20 @@ double montecarlo_gate_probability(const ConstraintResult& c) {
   if (c.scope == "path") return c.montecarlo.path_probability;
   const Eigen::Index i = argmax_finite(c.montecarlo.pointwise_probability);
   return i < 0 ? kNaN : c.montecarlo.pointwise_probability[i];
+}
+
+void montecarlo_gate_interval(const AnalysisResult& r, const ConstraintResult& c, double out[2]) {
+  out[0] = out[1] = kNaN;
+  if (!c.has_montecarlo) return;
+  if (c.scope == "path") {
+    out[0] = c.montecarlo.path_interval[0];
+    out[1] = c.montecarlo.path_interval[1];
+    return;
+  }
+  const double p = montecarlo_gate_probability(c);
+  const long long n = r.montecarlo.runs - r.montecarlo.failed_runs;
+  if (std::isnan(p) || n <= 0) return;
+  clopper_pearson(std::llround(p * double(n)), n, r.montecarlo.confidence, out);
 }
 
 std::string cautions_text() {

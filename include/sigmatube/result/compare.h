@@ -72,8 +72,8 @@ struct CompareReport {
 };
 
 /// Matches constraints by name. Per constraint the gate probability is the
-/// path probability (scope "path") or the worst pointwise probability; both
-/// results must carry Monte Carlo for the Monte Carlo numbers to be compared
+/// path probability (scope "path") or the worst pointwise probability; every
+/// side present must carry Monte Carlo for the Monte Carlo numbers to be used
 /// (counts: path violations, or round(p·runs) for pointwise scope, runs
 /// excluding failed ones) with one_sided_increase_test; otherwise the
 /// surrogate estimates with normal_difference_test on their sampling

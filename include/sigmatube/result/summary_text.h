@@ -37,4 +37,10 @@ double surrogate_gate_standard_error(const ConstraintResult& c);
 /// largest pointwise probability otherwise; NaN without Monte Carlo.
 double montecarlo_gate_probability(const ConstraintResult& c);
 
+/// Its interval at MonteCarloResult::confidence: the stored path interval for
+/// scope "path"; otherwise the Clopper–Pearson interval (Clopper & Pearson,
+/// Biometrika 26, 1934) of round(p·n) violations in n = runs − failed runs.
+/// NaN without Monte Carlo.
+void montecarlo_gate_interval(const AnalysisResult& result, const ConstraintResult& c, double out[2]);
+
 }  // namespace sigmatube::result

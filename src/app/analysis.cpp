@@ -257,8 +257,9 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
     c.scope = constraint.scope() == casefile::ConstraintScope::path ? "path" : "pointwise";
     c.max_probability = constraint.max_probability();
     const auto window = constraint.window();
-    c.window[0] = window.first;
-    c.window[1] = window.second;
+    // An open window is the whole plan: report it as the span it covers.
+    c.window[0] = std::max(window.first, r.time.front());
+    c.window[1] = std::min(window.second, r.time.back());
     fill_geometry(o, c);
     c.pointwise_probability = st.pointwise_probability;
     c.pointwise_standard_error = st.pointwise_standard_error;

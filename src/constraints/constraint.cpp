@@ -219,8 +219,12 @@ Constraint::Constraint(const casefile::ConstraintOptions& options, const std::ve
         }
       } catch (const mu::Parser::exception_type& e) {
         std::ostringstream msg;
-        msg << "constraint '" << o.name << "': clearance expression \"" << o.clearance << "\": " << e.GetMsg()
-            << " at position " << e.GetPos() + 1 << " (names with '.' are written with '_', e.g. cmd_ax)";
+        // muparser counts positions from 0 and usually names the position itself.
+        msg << "constraint '" << o.name << "': clearance expression \"" << o.clearance << "\": " << e.GetMsg();
+        if (e.GetMsg().find("position") == std::string::npos && e.GetPos() >= 0) {
+          msg << " at position " << e.GetPos() << " (counted from 0)";
+        }
+        msg << " (names with '.' are written with '_', e.g. cmd_ax)";
         throw InputError(at_key(o.where, "clearance"), msg.str());
       }
       break;

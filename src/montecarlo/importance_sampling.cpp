@@ -38,6 +38,22 @@ struct Partial {
 };
 }  // namespace
 
+std::optional<Eigen::VectorXd> closest_violating_sample(const Eigen::MatrixXd& z, const Eigen::VectorXd& g) {
+  if (z.rows() != g.size()) throw std::logic_error("closest_violating_sample: z and g differ in length");
+  Eigen::Index best = -1;
+  double best_norm2 = 0.0;
+  for (Eigen::Index i = 0; i < z.rows(); ++i) {
+    if (!(g[i] < 0.0)) continue;
+    const double norm2 = z.row(i).squaredNorm();
+    if (best < 0 || norm2 < best_norm2) {
+      best = i;
+      best_norm2 = norm2;
+    }
+  }
+  if (best < 0) return std::nullopt;
+  return Eigen::VectorXd(z.row(best).transpose());
+}
+
 MostProbablePoint find_most_probable_point(const LimitState& g, int dimension, const std::optional<Eigen::VectorXd>& start,
                                            const MostProbablePointOptions& options) {
   if (dimension <= 0 || !g) throw std::logic_error("find_most_probable_point: bad dimension or missing limit state");

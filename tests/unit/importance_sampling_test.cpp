@@ -79,8 +79,17 @@ TEST(ImportanceSampling, LinearLimitStateMatchesHasoferLindClosedForm) {
   const Eigen::VectorXd exact = g.beta * g.a / g.a.norm();  // z* = β a/‖a‖ (Hasofer & Lind 1974)
   EXPECT_LT((mpp.z - exact).norm(), kDesignPointTolerance);
   EXPECT_NEAR(mpp.beta, g.beta, kDesignPointTolerance);
-  // Starting from a violating sample far from the design point converges to it too.
-  const auto from_sample = find_most_probable_point(g, 4, Eigen::Vector4d(6.0, 3.0, 0.0, -2.0));
+  // Starting from the closest violating sample of a batch converges to the design point too.
+  Eigen::MatrixXd batch(3, 4);
+  batch << 6.0, 3.0, 0.0, 0.0,    // a·z/‖a‖ = 4.8 > β: g < 0, ‖z‖² = 45
+           9.0, 9.0, 0.0, 0.0,    // g < 0, ‖z‖² = 162
+           0.1, 0.0, 0.0, 0.0;    // safe
+  Eigen::VectorXd g_batch(3);
+  for (int i = 0; i < 3; ++i) g_batch[i] = g(Eigen::VectorXd(batch.row(i).transpose()));
+  const auto start = closest_violating_sample(batch, g_batch);
+  ASSERT_TRUE(start.has_value());
+  EXPECT_EQ(*start, Eigen::VectorXd(batch.row(0).transpose()));
+  const auto from_sample = find_most_probable_point(g, 4, start);
   EXPECT_LT((from_sample.z - exact).norm(), kDesignPointTolerance);
   const auto r = run_linear(mpp.z, 2, false);
   EXPECT_EQ(r.successful_samples, 5000);

@@ -40,6 +40,10 @@ namespace sigmatube::montecarlo {
 /// Limit state in standard-normal space; g ≤ 0 is a violation.
 using LimitState = std::function<double(const Eigen::VectorXd& z)>;
 
+/// The starting point HL-RF should use: the row of z ([N, d], standard-normal germ
+/// points of surrogate samples) with g < 0 and the smallest ‖z‖; empty when no row violates.
+std::optional<Eigen::VectorXd> closest_violating_sample(const Eigen::MatrixXd& z, const Eigen::VectorXd& g);
+
 struct MostProbablePointOptions {
   int max_iterations = 1000;  // HL-RF converges linearly on curved limit states (ratio ≈ β·curvature)
   double tolerance = 1e-10;              // stop when ‖z_{k+1} − z_k‖ ≤ tolerance·max(1, ‖z_k‖) and |g| small

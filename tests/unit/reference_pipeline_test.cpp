@@ -143,3 +143,27 @@ TEST(ReferencePipeline, SaturationMakesTheCrossCheckDisagree) {
 }
 
 }  // namespace
+
+namespace {
+
+TEST(ReferencePipeline, RareEventImportanceSamplingCoversOneInAMillion) {
+  // x ~ N(0, 1), violation when x > 4.753424: p = 1 − Φ(4.753424) = 1.0000015e-6
+  // (closed form; SciPy norm.sf gives 1.0000015281595757e-06). The interval from
+  // importance sampling of the full model must cover it with ≤ 5000 model runs.
+  const double exact = boost::math::cdf(boost::math::complement(boost::math::normal_distribution<double>(), 4.753424));
+  const auto loaded = load_case(reference_case("rare_half_space.toml"));
+  AnalysisOptions options = quiet_options();
+  options.importance_sampling_runs = 4000;
+  const auto result = analyze_case(loaded, options);
+  const auto& is = result.constraints.at(0).importance_sampling;
+  ASSERT_TRUE(is.done);
+  EXPECT_LE(is.runs, 5000);
+  EXPECT_LE(is.interval[0], exact);
+  EXPECT_GE(is.interval[1], exact);
+  EXPECT_NEAR(is.design_point_distance, 4.753424, 1e-6);  // Hasofer–Lind β of a linear limit state
+  EXPECT_TRUE(result.constraints.at(0).within_bound);     // 1e-6 ≤ bound 1e-5
+  std::printf("rare event: exact %.4e, IS %.4e [%.4e, %.4e], %lld runs, ESS %.0f, beta %.6f\n", exact, is.probability,
+              is.interval[0], is.interval[1], is.runs, is.effective_sample_size, is.design_point_distance);
+}
+
+}  // namespace

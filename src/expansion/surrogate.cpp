@@ -455,6 +455,18 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
     out.notes.push_back("surrogate.nested applies to sparse grids only and was ignored");
 
   RunCache cache(n_columns, &evaluate);
+  {
+    // One evaluator call for every point of the first design(s).
+    Eigen::Index rows = 0;
+    for (const auto& d : designs) rows += d.points.rows();
+    Eigen::MatrixXd all(rows, static_cast<Eigen::Index>(families.size()));
+    rows = 0;
+    for (const auto& d : designs) {
+      all.middleRows(rows, d.points.rows()) = d.points;
+      rows += d.points.rows();
+    }
+    cache.values(all);
+  }
   std::optional<Fit> coarse;
   if (designs.size() > 1) coarse = fit(families, options, designs[1], cache);
   Fit current = fit(families, options, designs[0], cache);

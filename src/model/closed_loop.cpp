@@ -95,7 +95,7 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
     throw std::logic_error("ClosedLoop::run: outputs must be [report times, output_count()]");
 
   // Work arrays of this run; the right-hand side below allocates nothing.
-  Eigen::VectorXd x_ref(n), u_ff(m), u_cmd(m), u_app(m), x(n);
+  Eigen::VectorXd x_ref(n), u_ff(m), u_cmd(m), u_app(m), x(n), derived(n_derived);
   const double* p = perturbation.parameters.data();
 
   // Evaluates u_cmd and u_app at (t, state).
@@ -134,9 +134,8 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
     for (int i = 0; i < n; ++i) outputs(row, i) = state[i];
     if (n_derived > 0) {
       // Derived outputs see the applied (saturated) input, like the dynamics do.
-      Eigen::VectorXd y(n_derived);
-      model_->derived_outputs(t, state, u_app.data(), p, y.data());
-      for (int j = 0; j < n_derived; ++j) outputs(row, n + j) = y(j);
+      model_->derived_outputs(t, state, u_app.data(), p, derived.data());
+      for (int j = 0; j < n_derived; ++j) outputs(row, n + j) = derived(j);
     }
     for (int i = 0; i < m; ++i) outputs(row, n + n_derived + i) = u_cmd(i);
   };

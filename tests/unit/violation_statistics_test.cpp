@@ -179,6 +179,21 @@ TEST(ViolationStatistics, ChunkingAndThreadsDoNotChangeResults) {
   EXPECT_TRUE(chunked_2.constraints[2].clearance_mean.isApprox(chunked_2.constraints[0].clearance_mean, 1e-12));
 }
 
+TEST(ViolationStatistics, NaNClearanceIsANumericalErrorNamingSampleAndTime) {
+  std::vector<Constraint> constraints = {Constraint(sphere(1.0, 0.01), kOutputs)};
+  const Eigen::VectorXd times = Eigen::VectorXd::LinSpaced(2, 0, 5);
+  ViolationStatistics stats(constraints, times, 3, 10);
+  Eigen::MatrixXd Y = Eigen::MatrixXd::Constant(4, 6, 2.0);
+  Y(2, 4) = std::nan("");  // sample 2 at t = 5 s
+  try {
+    stats.add(Y, 100);
+    FAIL() << "expected NumericalError";
+  } catch (const NumericalError& e) {
+    EXPECT_EQ(e.sample(), 102);
+    EXPECT_EQ(e.time_in_seconds(), 5.0);
+  }
+}
+
 TEST(ViolationStatistics, WindowWithoutReportTimeIsAnInputError) {
   auto o = sphere(1.0, 0.01);
   o.window_in_seconds = std::make_pair(100.0, 200.0);

@@ -63,8 +63,8 @@ TEST(SummaryText, ShowsMissingNumbersAsDash) {
 
 TEST(SummaryText, CautionsNameTheModelTheSurrogateLimitsTheCrossCheckAndTheAuthority) {
   const std::string c = cautions_text();
-  for (const char* phrase : {"model", "distributions", "saturation", "switching", "contact", "Monte Carlo",
-                             "safety", "regulations", "authority", "not this"}) {
+  for (const char* phrase : {"model", "distributions", "saturation", "switching", "contact", "Monte Carlo", "safety",
+                             "regulations", "authority", "not this"}) {
     // Words may wrap onto the next line; compare with newlines as spaces.
     std::string flat = c;
     std::replace(flat.begin(), flat.end(), '\n', ' ');

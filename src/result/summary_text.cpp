@@ -83,8 +83,8 @@ std::string worst_output(const AnalysisResult& r, const Eigen::VectorXd& v, doub
   return std::size_t(i) < r.output_names.size() ? r.output_names[std::size_t(i)] : "#" + std::to_string(i);
 }
 
-void flag_counts(const ConstraintResult& c, const std::vector<double>& time,
-                 const std::vector<std::uint8_t>& flags, int* ok, int* total) {
+void flag_counts(const ConstraintResult& c, const std::vector<double>& time, const std::vector<std::uint8_t>& flags,
+                 int* ok, int* total) {
   *ok = *total = 0;
   for (std::size_t k = 0; k < flags.size() && k < time.size(); ++k) {
     if (!in_window(c, time[k])) continue;
@@ -206,9 +206,10 @@ std::string summary_text(const AnalysisResult& r, bool color) {
     const std::string name = worst_output(r, s.error_estimate, &worst);
     out << "  error        estimate " << format_probability(worst) << " (worst output: " << name << ")\n";
     if (!s.tolerance_met)
-      out << paint("  WARNING: the surrogate did not reach its error tolerance; trust its numbers only as far "
-                   "as the Monte Carlo cross-check confirms them.",
-                   kYellow, color)
+      out << paint(
+                 "  WARNING: the surrogate did not reach its error tolerance; trust its numbers only as far "
+                 "as the Monte Carlo cross-check confirms them.",
+                 kYellow, color)
           << "\n";
     for (const auto& line : s.karhunen_loeve) out << "  Karhunen-Loeve  " << line << "\n";
     for (const auto& note : s.notes) out << "  note         " << note << "\n";
@@ -229,15 +230,15 @@ std::string summary_text(const AnalysisResult& r, bool color) {
     for (const auto& c : r.constraints) {
       const double p = surrogate_gate_probability(c);
       const double se = surrogate_gate_standard_error(c);
-      std::vector<std::string> row = {c.name, c.scope.empty() ? kMissingValue : c.scope,
-                                      format_probability(c.max_probability),
-                                      format_probability(p) + " +/- " + format_probability(se, 1),
-                                      montecarlo_cell(r, c)};
+      std::vector<std::string> row = {
+          c.name, c.scope.empty() ? kMissingValue : c.scope, format_probability(c.max_probability),
+          format_probability(p) + " +/- " + format_probability(se, 1), montecarlo_cell(r, c)};
       if (any_is) {
         const auto& is = c.importance_sampling;
-        row.push_back(is.done ? format_probability(is.probability) + " " + interval_text(is.interval[0], is.interval[1]) +
-                                    " " + format_value(is.effective_sample_size, 3)
-                              : std::string(kMissingValue));
+        row.push_back(is.done
+                          ? format_probability(is.probability) + " " + interval_text(is.interval[0], is.interval[1]) +
+                                " " + format_value(is.effective_sample_size, 3)
+                          : std::string(kMissingValue));
       }
       row.push_back(format_value(c.margin, 4));
       row.push_back(c.within_bound ? "within" : "EXCEEDED");
@@ -287,8 +288,8 @@ std::string summary_text(const AnalysisResult& r, bool color) {
             << (c.agreement_cause.empty() ? std::string() : " (" + c.agreement_cause + ")") << "\n";
       if (c.importance_sampling.done) {
         const auto& is = c.importance_sampling;
-        out << "    importance sampling: " << is.runs << " runs, P " << format_probability(is.probability)
-            << " +/- " << format_probability(is.standard_error, 1) << ", ESS " << format_value(is.effective_sample_size, 4)
+        out << "    importance sampling: " << is.runs << " runs, P " << format_probability(is.probability) << " +/- "
+            << format_probability(is.standard_error, 1) << ", ESS " << format_value(is.effective_sample_size, 4)
             << ", design point distance (beta) " << format_value(is.design_point_distance, 4) << "\n";
       }
     }
@@ -313,7 +314,11 @@ std::string summary_text(const AnalysisResult& r, bool color) {
           << interval_text(m.joint_path_interval[0], m.joint_path_interval[1]) << " (any constraint violated)\n";
     const std::string agreement = m.agreement.empty() ? std::string(kMissingValue) : m.agreement;
     out << "  agreement    "
-        << paint(agreement, m.agreement == "disagree" ? kRed : m.agreement == "agree" ? kGreen : kReset, color)
+        << paint(agreement,
+                 m.agreement == "disagree" ? kRed
+                 : m.agreement == "agree"  ? kGreen
+                                           : kReset,
+                 color)
         << (m.agreement_cause.empty() ? std::string() : ": " + m.agreement_cause) << "\n";
   } else if (s.done) {
     out << "\n"

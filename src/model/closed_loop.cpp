@@ -137,7 +137,10 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
       model_->derived_outputs(t, state, u_app.data(), p, derived.data());
       for (int j = 0; j < n_derived; ++j) outputs(row, n + j) = derived(j);
     }
-    for (int i = 0; i < m; ++i) outputs(row, n + n_derived + i) = u_cmd(i);
+    // The demand on the actuator, before saturation: what an input limit judges and
+    // what tells a saturated run from a smooth one.
+    for (int i = 0; i < m; ++i)
+      outputs(row, n + n_derived + i) = perturbation.input_scale(i) * u_cmd(i) + perturbation.input_bias(i);
   };
 
   x = plan_->reference_state(report_times_.front()) + perturbation.initial_offset;

@@ -193,6 +193,52 @@ std::string tube_plot(const AnalysisResult& r, const ReportOptions& o) {
   return plot.render();
 }
 
+// Deviation from the nominal path vs time for the two plane outputs: the
+// tube's cross-section, readable even when the dispersion is far smaller than
+// the path (where the plane view shows a line).
+std::string deviation_plot(const AnalysisResult& r, const ReportOptions& o) {
+  const Plane p = choose_plane(r, o);
+  const std::size_t T = r.time.size(), n = r.output_names.size();
+  if (p.iy < 0 || T == 0 || !rows_match(r.nominal_outputs, T, n)) return "";
+  const SurrogateResult& s = r.surrogate;
+  const MonteCarloResult& m = r.montecarlo;
+  const bool have_surrogate = s.done && rows_match(s.mean, T, n) && rows_match(s.std, T, n);
+  const bool have_mc = m.done && rows_match(m.mean, T, n) && rows_match(m.std, T, n);
+  if (!have_surrogate && !have_mc) return "";
+  const Eigen::MatrixXd& mean = have_surrogate ? s.mean : m.mean;
+  const Eigen::MatrixXd& sd = have_surrogate ? s.std : m.std;
+  SvgPlot plot("plot-tube-deviation", "Tube cross-section: deviation from the nominal path", 900, 340);
+  plot.x_axis("time [s]");
+  time_range(plot, r);
+  plot.y_axis("output − nominal");
+  std::vector<int> axes;
+  if (p.ix >= 0) axes.push_back(p.ix);
+  axes.push_back(p.iy);
+  const int kept = std::min<int>(o.max_mc_runs, int(m.sample_outputs.size()));
+  for (std::size_t a = 0; a < axes.size(); ++a) {
+    const int j = axes[a];
+    const std::string cc = colour(a);
+    const std::string name = r.output_names[std::size_t(j)];
+    for (int k = 0; k < kept; ++k) {
+      const Eigen::MatrixXd& run = m.sample_outputs[std::size_t(k)];
+      if (!rows_match(run, T, n)) continue;
+      std::vector<double> d(T);
+      for (std::size_t t = 0; t < T; ++t) d[t] = run(Eigen::Index(t), j) - r.nominal_outputs(Eigen::Index(t), j);
+      plot.line(r.time, d, SvgStyle{cc, 0.6, "", "none", 1.0, 0.35}, k == 0 ? name + ": Monte Carlo runs" : "");
+    }
+    std::vector<double> lo(T), hi(T), mid(T);
+    for (std::size_t t = 0; t < T; ++t) {
+      const auto i = Eigen::Index(t);
+      mid[t] = mean(i, j) - r.nominal_outputs(i, j);
+      lo[t] = mid[t] - 3 * sd(i, j);
+      hi[t] = mid[t] + 3 * sd(i, j);
+    }
+    plot.band(r.time, lo, hi, SvgStyle{cc, 0.5, "", cc, 0.22}, name + ": mean ± 3σ");
+    plot.line(r.time, mid, SvgStyle{cc, 1.8, "", "none"}, name + ": mean − nominal");
+  }
+  return plot.render();
+}
+
 std::string probability_plot(const AnalysisResult& r) {
   if (r.constraints.empty() || r.time.empty()) return paragraph("No constraints in this result.", "missing");
   SvgPlot plot("plot-probability", "Violation probability vs time", 900, 380);
@@ -475,7 +521,8 @@ std::string facts_table(const AnalysisResult& r) {
   }
   std::ostringstream o;
   o << "<table class=\"facts\">\n<tbody>\n";
-  for (const auto& [k, v] : rows) o << "<tr><th>" << xml_escape(k) << "</th><td>" << xml_escape(v) << "</td></tr>\n";
+  for (const auto& [k, v] : rows)
+    o << "<tr><th>" << xml_escape(k) << "</th><td class=\"lines\">" << xml_escape(v) << "</td></tr>\n";
   o << "</tbody>\n</table>\n";
   return o.str();
 }
@@ -500,6 +547,7 @@ td.good { color: #23753f; font-weight: bold; }
 td.bad { color: #b02a1a; font-weight: bold; }
 tr.note td { color: #4a5866; font-size: 12px; border-top: none; }
 .cautions { background: #fff7e0; border: 1px solid #e6c36a; padding: 10px 14px; border-radius: 4px; }
+td.lines { white-space: pre-line; }
 .caption { font-size: 12px; color: #4a5866; margin-top: 2px; }
 .missing { color: #6a7682; font-style: italic; }
 svg.plot { display: block; margin: 8px 0; border: 1px solid #e1e5ea; }
@@ -544,7 +592,7 @@ std::string html_report(const AnalysisResult& r, const ReportOptions& options) {
            "tube; for a Gaussian position each ellipse holds about 98.9% of the probability). Keep-out zones "
            "are drawn when their position outputs are the two axes; spheres appear as their projected circle.",
            "caption")
-    << tube_plot(r, options);
+    << tube_plot(r, options) << deviation_plot(r, options);
   o << "<h2>Violation probability</h2>\n" << probability_plot(r);
   o << "<h2>Clearance and margin</h2>\n"
     << paragraph(

@@ -43,6 +43,16 @@ std::string wrap(const std::string& text, std::size_t width, const std::string& 
   return out;
 }
 
+// Indents every line after the first (multi-line causes under a label).
+std::string indent_lines(const std::string& text, const std::string& indent) {
+  std::string out;
+  for (char ch : text) {
+    out += ch;
+    if (ch == '\n') out += indent;
+  }
+  return out;
+}
+
 bool in_window(const ConstraintResult& c, double t) {
   const bool lo = std::isnan(c.window[0]) || t >= c.window[0];
   const bool hi = std::isnan(c.window[1]) || t <= c.window[1];
@@ -190,15 +200,15 @@ std::string summary_text(const AnalysisResult& r, bool color) {
     out << "\nSurrogate\n";
     out << "  method       " << (s.method.empty() ? kMissingValue : s.method) << ", degree " << s.degree_reached
         << ", level " << s.level_reached << "\n";
-    out << "  germ         dimension " << s.germ_names.size();
+    std::string germ = "dimension " + std::to_string(s.germ_names.size());
     if (!s.germ_names.empty()) {
-      out << " (";
+      germ += " (";
       for (std::size_t i = 0; i < s.germ_names.size(); ++i)
-        out << (i ? ", " : "") << s.germ_names[i]
-            << (i < s.germ_families.size() ? " " + s.germ_families[i] : std::string());
-      out << ")";
+        germ +=
+            (i ? ", " : "") + s.germ_names[i] + (i < s.germ_families.size() ? " " + s.germ_families[i] : std::string());
+      germ += ")";
     }
-    out << "\n";
+    out << wrap(germ, 78, "  germ         ");
     out << "  basis size   " << s.multi_indices.rows() << " polynomials\n";
     out << "  model runs   " << s.model_runs << "\n";
     if (s.samples > 0) out << "  samples      " << s.samples << " surrogate samples for probabilities\n";
@@ -265,7 +275,7 @@ std::string summary_text(const AnalysisResult& r, bool color) {
     out << "\nDetails\n";
     for (const auto& c : r.constraints) {
       out << "  " << c.name << " (" << (c.type.empty() ? kMissingValue : c.type) << ")";
-      if (!std::isnan(c.window[0]) || !std::isnan(c.window[1]))
+      if (std::isfinite(c.window[0]) && std::isfinite(c.window[1]))
         out << ", window " << format_value(c.window[0]) << " to " << format_value(c.window[1]) << " s";
       out << "\n";
       if (!c.verdict.empty()) out << wrap(c.verdict, 78, "    ");
@@ -319,7 +329,8 @@ std::string summary_text(const AnalysisResult& r, bool color) {
                  : m.agreement == "agree"  ? kGreen
                                            : kReset,
                  color)
-        << (m.agreement_cause.empty() ? std::string() : ": " + m.agreement_cause) << "\n";
+        << (m.agreement_cause.empty() ? std::string() : ": " + indent_lines(m.agreement_cause, "               "))
+        << "\n";
   } else if (s.done) {
     out << "\n"
         << paint("No Monte Carlo cross-check was run: the surrogate numbers above are unconfirmed.", kYellow, color)

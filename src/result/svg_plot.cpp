@@ -14,7 +14,7 @@
 namespace sigmatube::result {
 namespace {
 
-constexpr double kLeftPx = 78, kTopPx = 34, kBottomPx = 52, kLegendPx = 200;
+constexpr double kLeftPx = 78, kTopPx = 34, kBottomPx = 52, kLegendPx = 230;
 
 std::string px(double v) {
   char buffer[32];
@@ -350,10 +350,10 @@ std::string SvgPlot::render() const {
           << style_attributes(s, false) << "/>\n";
     }
     std::string text = item.legend;
-    if (display_width(text) > 28) {
+    if (display_width(text) > 33) {
       // Cut on a character boundary.
       std::size_t cut = 0, count = 0;
-      while (cut < text.size() && count < 27) {
+      while (cut < text.size() && count < 32) {
         ++cut;
         while (cut < text.size() && (static_cast<unsigned char>(text[cut]) & 0xC0) == 0x80) ++cut;
         ++count;

@@ -64,8 +64,8 @@ TEST(HtmlReport, IsWellFormedXhtmlWithEveryPlotDrawn) {
   const std::string html = html_report(r, ReportOptions{});
   const std::string inspection = inspect_report(html, folder);
   const auto plots = drawn_per_plot(inspection);
-  for (const char* id :
-       {"plot-tube", "plot-probability", "plot-clearance-1", "plot-clearance-2", "plot-sobol", "plot-validation"}) {
+  for (const char* id : {"plot-tube", "plot-tube-deviation", "plot-probability", "plot-clearance-1", "plot-clearance-2",
+                         "plot-sobol", "plot-validation"}) {
     ASSERT_TRUE(plots.count(id)) << id << "\n" << inspection;
     EXPECT_GT(plots.at(id).first, 0) << id;
   }

@@ -58,7 +58,9 @@ struct SurrogateSummary {
   int level_reached = 0;        // sparse-grid level, or 0
   int degree_reached = 0;       // basis total degree
   bool tolerance_met = true;    // every error estimate ≤ tolerance (also reported when not adaptive)
-  // Relative error estimate per output (max over report times), [n_outputs]. Per
+  // Relative error estimate per output, [n_outputs]: the column estimates below
+  // pooled over report times with weights s_c² (norm ratios: √(Σ_t ‖ΔC_c‖²/Σ_t s_c²);
+  // LOO: Σ_t ε_c s_c² / Σ_t s_c²), the relative error of the whole time history. Per
   // column c, with sd_c = √(Σ_{α≠0} C[α,c]²) and s_c = max(sd_c, 1e-9·(1 + |mean_c|))
   // (the floor keeps constant outputs from dividing by ~0):
   //   sparse grid:  ‖C_L[:,c] − C_{L−1}[:,c]‖₂ / s_c, the change from level L − 1

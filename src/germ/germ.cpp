@@ -42,12 +42,8 @@ double upper_quantile(double q) {
 // anything above round-off is a typing mistake (common practice).
 constexpr double kSymmetryTolerance = 1e-12;
 
-// " (did you mean 'x'?)" when some candidate is close, else the list of candidates.
 std::string suggestion(const std::string& word, const std::vector<std::string>& candidates) {
-  if (candidates.empty()) return " (there are none)";
-  const std::string close = casefile::did_you_mean(word, candidates);
-  if (!close.empty()) return close;
-  return " (known: " + casefile::join_names(candidates) + ")";
+  return casefile::suggestion_or_list(word, candidates);
 }
 
 SourceLocation at_key(const UncertainOptions& entry, const std::string& key) {

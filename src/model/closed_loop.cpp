@@ -7,7 +7,7 @@
 #include <sstream>
 #include <stdexcept>
 
-#include "nearest_name.h"
+#include "sigmatube/casefile/nearest_name.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/model/controller.h"
 #include "sigmatube/model/integrator.h"
@@ -38,7 +38,7 @@ ClosedLoop::ClosedLoop(std::shared_ptr<const Model> model, const casefile::CaseO
     const auto it = std::find(inputs.begin(), inputs.end(), limit.input);
     if (it == inputs.end())
       throw InputError(where, "limit for unknown input '" + limit.input + "' of model '" + model_->name() + "'" +
-                                  detail::suggestion(limit.input, inputs));
+                                  casefile::suggestion_or_list(limit.input, inputs));
     if (!(limit.low <= limit.high) || std::isnan(limit.low) || std::isnan(limit.high))
       throw InputError(where, "limits must be [low, high] with low ≤ high");
     const auto i = static_cast<Eigen::Index>(it - inputs.begin());

@@ -8,7 +8,7 @@
 #include <fstream>
 #include <sstream>
 
-#include "nearest_name.h"
+#include "sigmatube/casefile/nearest_name.h"
 
 namespace sigmatube::model {
 namespace {
@@ -101,7 +101,7 @@ Plan::Plan(const casefile::PlanOptions& options, const Model& model) : interpola
         else if (u != inputs.end()) code = -1 - static_cast<int>(u - inputs.begin());
         else
           throw fail(line_number, "'" + name + "'",
-                     "names no state or input of model '" + model.name() + "'" + detail::suggestion(name, known));
+                     "names no state or input of model '" + model.name() + "'" + casefile::suggestion_or_list(name, known));
         if (std::find(target.begin(), target.end(), code) != target.end())
           throw fail(line_number, "'" + name + "'", "column repeated");
         target.push_back(code);

@@ -141,7 +141,8 @@ TEST(ClosedLoop, SaturationLimitsTheAppliedInputButNotTheCommand) {
   EXPECT_EQ(loop.output_names()[command], "cmd.u");
   EXPECT_LE(out.col(applied).cwiseAbs().maxCoeff(), kLimit);
   EXPECT_GT(out.col(command).cwiseAbs().maxCoeff(), kLimit);
-  EXPECT_NEAR(out(0, command), -5.0, 1e-12);
+  // cmd.u is the demand on the actuator, scale included, before saturation: 1.1·(−5).
+  EXPECT_NEAR(out(0, command), -5.5, 1e-12);
   EXPECT_NEAR(out(0, applied), -kLimit, 1e-15);
 }
 

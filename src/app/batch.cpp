@@ -58,7 +58,7 @@ struct CaseOutcome {
 /// first, then the bound.
 std::string constraint_verdict(const result::ConstraintResult& c) {
   if (c.agreement == "disagree") return "disagree";
-  return c.within_bound ? "within" : "EXCEEDS";
+  return c.within_bound ? "within" : "EXCEEDED";
 }
 
 std::string one_line(std::string text) {

@@ -161,6 +161,33 @@ TEST_F(Batch, ExistingResultsAreNeverReplacedWithoutForce) {
   EXPECT_NO_THROW(result::read_result_file(first.string()));
 }
 
+TEST_F(Batch, DivergingCaseIsANumericalFailureAndDoesNotStopTheNext) {
+  // dx/dt = k x^2 with x(0) = 1 blows up at t = 1/k (closed form x = 1/(1 - k t)),
+  // inside the plan's 5 s: the nominal run must fail numerically.
+  std::ofstream(dir_ / "cases" / "blowup_plan.csv") << "t,x\n0,1\n5,1\n";
+  std::ofstream(dir_ / "cases" / "blowup.toml") << "title = \"invented diverging case\"\n"
+                                                  "[model]\nstates = [\"x\"]\nparameters = { k = 1.0 }\n"
+                                                  "rhs = { x = \"k*x^2\" }\n"
+                                                  "[plan]\nfile = \"blowup_plan.csv\"\n"
+                                                  "[[uncertain]]\nname = \"k\"\napplies_to = \"parameter.k\"\n"
+                                                  "distribution = \"uniform\"\nlow = 0.9\nhigh = 1.1\n";
+  std::ofstream(dir_ / "suite2.toml") << "[defaults]\nsamples = 2000\nmc_runs = 20\n"
+                                         "[[case]]\nfile = \"cases/blowup.toml\"\n"
+                                         "[[case]]\nfile = \"cases/hcw.toml\"\nname = \"after\"\nmc_runs = 20\n";
+  const int code = app::run_batch((dir_ / "suite2.toml").string(), options_);
+  EXPECT_EQ(code, 4);  // worst of {4, 0 or 1}
+  EXPECT_FALSE(fs::exists(dir_ / "out" / "blowup.h5"));
+  EXPECT_NO_THROW(result::read_result_file((dir_ / "out" / "after.h5").string()));
+  const std::vector<double> json = test::python_numbers(
+      "import json\n"
+      "c = json.load(open('" + (dir_ / "summary.json").string() + "'))['cases']\n"
+      "print(c[0]['exit_code'], int(c[0]['error']['kind'] == 'numerical failure'), int(c[1]['error'] is None))\n");
+  ASSERT_EQ(json.size(), 3u);
+  EXPECT_EQ(json[0], 4);
+  EXPECT_EQ(json[1], 1);
+  EXPECT_EQ(json[2], 1);
+}
+
 TEST_F(Batch, UnreadableSuiteRunsNothing) {
   std::ofstream(dir_ / "bad_suite.toml") << "[[case]]\nfile = \"cases/nope.toml\"\n";
   EXPECT_THROW(app::run_batch((dir_ / "bad_suite.toml").string(), options_), InputError);

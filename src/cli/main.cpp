@@ -6,6 +6,7 @@
 #include <CLI/CLI.hpp>
 
 #include <cstdio>
+#include <cstdlib>
 #include <exception>
 #include <fstream>
 #include <iostream>
@@ -73,6 +74,9 @@ std::string run_help_footer() {
 }  // namespace
 
 int main(int argc, char** argv) {
+  // muparser's bulk mode parallelizes with OpenMP; our own worker threads already
+  // use every core, so nested OpenMP threads would only oversubscribe them.
+  ::setenv("OMP_NUM_THREADS", "1", 0);
   CLI::App cli{"sigmatube: chance-constraint analysis of closed-loop trajectory plans by polynomial chaos,\n"
                "cross-checked with Monte Carlo."};
   cli.require_subcommand(1);

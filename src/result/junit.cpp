@@ -28,15 +28,16 @@ std::string junit_xml(const std::vector<JUnitCase>& cases, const std::string& su
     total += std::isfinite(c.time_in_seconds) && c.time_in_seconds > 0 ? c.time_in_seconds : 0.0;
   }
   const std::string counts = " tests=\"" + std::to_string(cases.size()) + "\" failures=\"" + std::to_string(failures) +
-                             "\" errors=\"" + std::to_string(errors) + "\" skipped=\"" + std::to_string(skipped) + "\" time=\"" + seconds(total) + "\"";
+                             "\" errors=\"" + std::to_string(errors) + "\" skipped=\"" + std::to_string(skipped) +
+                             "\" time=\"" + seconds(total) + "\"";
   const std::string name = xml_escape(suite_name);
   std::ostringstream o;
   o << "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n";
   o << "<testsuites name=\"" << name << "\"" << counts << ">\n";
   o << "  <testsuite name=\"" << name << "\"" << counts << ">\n";
   for (const auto& c : cases) {
-    o << "    <testcase classname=\"" << xml_escape(c.classname) << "\" name=\"" << xml_escape(c.name)
-      << "\" time=\"" << seconds(c.time_in_seconds) << "\"";
+    o << "    <testcase classname=\"" << xml_escape(c.classname) << "\" name=\"" << xml_escape(c.name) << "\" time=\""
+      << seconds(c.time_in_seconds) << "\"";
     const bool body = c.error || c.failed || c.skipped || !c.system_out.empty();
     if (!body) {
       o << "/>\n";

@@ -8,19 +8,19 @@
 namespace sigmatube::result {
 
 struct JUnitCase {
-  std::string classname;          // e.g. the case title or file
-  std::string name;               // e.g. the constraint
+  std::string classname;  // e.g. the case title or file
+  std::string name;       // e.g. the constraint
   double time_in_seconds = 0.0;
   bool failed = false;
-  std::string failure_message;    // one line, the <failure message="...">
-  std::string failure_text;       // the <failure> body
+  std::string failure_message;  // one line, the <failure message="...">
+  std::string failure_text;     // the <failure> body
   std::string failure_type = "regression";  // the <failure type="...">
-  bool error = false;             // the test could not run: <error message="...">text</error>
-  std::string error_message;      // one line
+  bool error = false;         // the test could not run: <error message="...">text</error>
+  std::string error_message;  // one line
   std::string error_text;
   bool skipped = false;
   std::string skipped_message;
-  std::string system_out;         // optional <system-out>
+  std::string system_out;  // optional <system-out>
 };
 
 /// <?xml version="1.0" encoding="UTF-8"?>

@@ -124,6 +124,8 @@ int main(int argc, char** argv) {
   batch->add_option("SUITE", suite_path, "suite file (TOML)")->required();
   batch->add_option("-d,--directory", directory, "folder for the result files")->required();
   batch->add_option("--junit", junit, "write JUnit XML to FILE");
+  batch->add_option("--samples", samples, "surrogate samples for probabilities (overrides the suite and cases)")
+      ->check(CLI::PositiveNumber);
   add_common(batch, common, true);
 
   auto* report = cli.add_subcommand("report", "Write a self-contained HTML page with plots of a result.");
@@ -215,6 +217,7 @@ int main(int argc, char** argv) {
     if (batch->parsed()) {
       app::BatchOptions options;
       options.analysis = analysis_options(common);
+      options.analysis.samples = samples;
       options.directory = directory;
       options.force = common.force;
       options.junit_path = junit;

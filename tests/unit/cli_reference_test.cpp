@@ -79,4 +79,28 @@ TEST(CommandLineReference, ExitCodesZeroOneAndThreeComeFromCasesInTests) {
   fs::remove_all(scratch("").parent_path());
 }
 
+TEST(CommandLineReference, CompareGatesARiskierPlanAndPassesTheSameOne) {
+  // Base: exact P = F_ncx2(4; 3, 9) = 0.0780; riskier candidate (body 0.4 m closer):
+  // F_ncx2(4; 3, 6.76) = 0.1461 (SciPy ncx2.cdf). The gate must fail the candidate,
+  // name the constraint and write one JUnit failure; a result against itself passes.
+  const std::string cli = SIGMATUBE_CLI;
+  const std::string small = " --samples 100000 --mc-runs 2000 --threads 2 --quiet --force";
+  const fs::path base = scratch("base.h5"), candidate = scratch("candidate.h5"), junit = scratch("gate.xml");
+  ASSERT_EQ(run(cli + " run '" + reference_case("gaussian_sphere.toml") + "' -o '" + base.string() + "'" + small).exit_code, 0);
+  const Output riskier =
+      run(cli + " run '" + reference_case("gaussian_sphere_riskier.toml") + "' -o '" + candidate.string() + "'" + small);
+  ASSERT_EQ(riskier.exit_code, 1) << riskier.text;  // 0.146 > bound 0.1
+  const Output same = run(cli + " compare '" + base.string() + "' '" + base.string() + "'");
+  EXPECT_EQ(same.exit_code, 0) << same.text;
+  const Output gate = run(cli + " compare '" + base.string() + "' '" + candidate.string() + "' --junit '" +
+                          junit.string() + "' --force");
+  EXPECT_EQ(gate.exit_code, 1) << gate.text;
+  EXPECT_NE(gate.text.find("sphere"), std::string::npos) << gate.text;
+  const Output failures = run(std::string(SIGMATUBE_PYTHON) +
+                              " -c \"import xml.etree.ElementTree as ET; r = ET.parse('" + junit.string() +
+                              "').getroot(); print(len(r.findall('.//failure')), len(r.findall('.//testcase')))\"");
+  EXPECT_EQ(failures.text, "1 1\n") << failures.text;
+  fs::remove_all(base.parent_path());
+}
+
 }  // namespace

@@ -39,18 +39,6 @@ std::string utc_now() {
   return buffer;
 }
 
-const char* type_name(ConstraintKind kind) {
-  switch (kind) {
-    case ConstraintKind::outside_sphere: return "outside-sphere";
-    case ConstraintKind::outside_ellipsoid: return "outside-ellipsoid";
-    case ConstraintKind::inside_box: return "inside-box";
-    case ConstraintKind::inside_cone: return "inside-cone";
-    case ConstraintKind::half_space: return "half-space";
-    case ConstraintKind::input_limit: return "input-limit";
-    case ConstraintKind::expression: return "expression";
-  }
-  return "?";
-}
 
 result::AnalysisResult base_result(const LoadedCase& loaded, const char* command) {
   result::AnalysisResult r;
@@ -315,7 +303,7 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
     const auto& st = surrogate_violations.constraints[k];
     result::ConstraintResult c;
     c.name = constraint.name();
-    c.type = type_name(constraint.type());
+    c.type = constraints::kind_name(constraint.type());
     c.scope = constraint.scope() == casefile::ConstraintScope::path ? "path" : "pointwise";
     c.max_probability = constraint.max_probability();
     const auto window = constraint.window();

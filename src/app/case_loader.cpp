@@ -57,19 +57,6 @@ const char* distribution_name(casefile::DistributionKind kind) {
   return "?";
 }
 
-const char* constraint_type_name(casefile::ConstraintKind kind) {
-  using K = casefile::ConstraintKind;
-  switch (kind) {
-    case K::outside_sphere: return "outside-sphere";
-    case K::outside_ellipsoid: return "outside-ellipsoid";
-    case K::inside_box: return "inside-box";
-    case K::inside_cone: return "inside-cone";
-    case K::half_space: return "half-space";
-    case K::input_limit: return "input-limit";
-    case K::expression: return "expression";
-  }
-  return "?";
-}
 
 std::string join(const std::vector<std::string>& names) {
   std::string out;
@@ -149,7 +136,7 @@ std::string describe_case(const LoadedCase& loaded) {
   out << std::setprecision(6);
   out << "constraints " << loaded.constraints.size() << "\n";
   for (const auto& c : o.constraints) {
-    out << "  " << std::left << std::setw(22) << c.name << " " << std::setw(17) << constraint_type_name(c.type)
+    out << "  " << std::left << std::setw(22) << c.name << " " << std::setw(17) << constraints::kind_name(c.type)
         << " P(violation) <= " << c.max_probability << " (" << (c.scope == casefile::ConstraintScope::path ? "path" : "pointwise");
     if (c.window_in_seconds) out << ", window " << c.window_in_seconds->first << " … " << c.window_in_seconds->second << " s";
     out << ")\n";

@@ -24,18 +24,6 @@ SourceLocation at_key(const SourceLocation& where, const std::string& key) {
   return located;
 }
 
-std::string kind_name(ConstraintKind kind) {
-  switch (kind) {
-    case ConstraintKind::outside_sphere: return "outside-sphere";
-    case ConstraintKind::outside_ellipsoid: return "outside-ellipsoid";
-    case ConstraintKind::inside_box: return "inside-box";
-    case ConstraintKind::inside_cone: return "inside-cone";
-    case ConstraintKind::half_space: return "half-space";
-    case ConstraintKind::input_limit: return "input-limit";
-    case ConstraintKind::expression: return "expression";
-  }
-  return "unknown";
-}
 
 // One muparser instance with its own input buffers; muparser keeps evaluation
 // state inside the parser, so concurrent callers each need one.
@@ -373,6 +361,19 @@ void Constraint::clearance(const Eigen::Ref<const Eigen::MatrixXd>& block, doubl
     }
   }
   throw std::logic_error("Constraint::clearance: unknown constraint type");
+}
+
+std::string kind_name(casefile::ConstraintKind kind) {
+  switch (kind) {
+    case ConstraintKind::outside_sphere: return "outside-sphere";
+    case ConstraintKind::outside_ellipsoid: return "outside-ellipsoid";
+    case ConstraintKind::inside_box: return "inside-box";
+    case ConstraintKind::inside_cone: return "inside-cone";
+    case ConstraintKind::half_space: return "half-space";
+    case ConstraintKind::input_limit: return "input-limit";
+    case ConstraintKind::expression: return "expression";
+  }
+  return "unknown";
 }
 
 }  // namespace sigmatube::constraints

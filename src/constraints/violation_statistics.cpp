@@ -1,6 +1,8 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/constraints/violation_statistics.h"
 
+#include "sigmatube/core/running_moments.h"
+
 #include <algorithm>
 #include <cmath>
 #include <limits>
@@ -47,19 +49,6 @@ double order_statistic(std::vector<double> heap, long long m) {
   return heap[static_cast<std::size_t>(m)];
 }
 
-// Chan–Golub–LeVeque merge of (n_a, mean_a, M2_a) with (n_b, mean_b, M2_b).
-void merge_moments(long long na, double& mean_a, double& m2_a, long long nb, double mean_b, double m2_b) {
-  if (nb == 0) return;
-  if (na == 0) {
-    mean_a = mean_b;
-    m2_a = m2_b;
-    return;
-  }
-  const double n = static_cast<double>(na + nb);
-  const double delta = mean_b - mean_a;
-  mean_a += delta * static_cast<double>(nb) / n;
-  m2_a += m2_b + delta * delta * static_cast<double>(na) * static_cast<double>(nb) / n;
-}
 }  // namespace
 
 double ConstraintStatistics::governing_probability() const {

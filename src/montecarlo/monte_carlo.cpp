@@ -1,6 +1,8 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/montecarlo/monte_carlo.h"
 
+#include "sigmatube/core/running_moments.h"
+
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
@@ -30,19 +32,6 @@ struct Partial {
   std::vector<std::pair<long long, std::string>> failures;
 };
 
-void merge_moments(long long na, Eigen::VectorXd& mean_a, Eigen::VectorXd& m2_a, long long nb, const Eigen::VectorXd& mean_b,
-                   const Eigen::VectorXd& m2_b) {
-  if (nb == 0) return;
-  if (na == 0) {
-    mean_a = mean_b;
-    m2_a = m2_b;
-    return;
-  }
-  const double n = static_cast<double>(na + nb);
-  const Eigen::VectorXd delta = mean_b - mean_a;
-  mean_a += delta * (static_cast<double>(nb) / n);
-  m2_a += m2_b + delta.cwiseProduct(delta) * (static_cast<double>(na) * static_cast<double>(nb) / n);
-}
 
 std::string format_g(double value) {
   char buffer[48];

@@ -43,6 +43,9 @@ namespace sigmatube::constraints {
 /// The spelling of an output name inside a clearance expression: '.' → '_'.
 std::string expression_alias(const std::string& output_name);
 
+/// The case-file name of a constraint type ("outside-sphere", …).
+std::string kind_name(casefile::ConstraintKind kind);
+
 class Constraint {
  public:
   /// @throws InputError (at options.where) for names that are not outputs, geometry

@@ -9,16 +9,15 @@
 #include <sstream>
 #include <vector>
 
+#include "sigmatube/app/model_runs.h"
 #include "sigmatube/app/progress.h"
 #include "sigmatube/constraints/margins.h"
 #include "sigmatube/constraints/reformulations.h"
 #include "sigmatube/constraints/violation_statistics.h"
 #include "sigmatube/core/counter_rng.h"
-#include "sigmatube/core/distributed.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/core/parallel.h"
 #include "sigmatube/expansion/surrogate.h"
-#include "sigmatube/model/batch_propagator.h"
 #include "sigmatube/montecarlo/agreement.h"
 #include "sigmatube/montecarlo/monte_carlo.h"
 
@@ -86,47 +85,9 @@ void run_at(const LoadedCase& loaded, const double* xi, long long sample, double
   Eigen::Map<Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>>(outputs, out.rows(), out.cols()) = out;
 }
 
-// Model runs per batch (and per work item of the rank/thread split): large enough
-// to amortize the shared plan/gain work of batched propagation; design runs use
-// smaller blocks so that a few hundred of them still balance over threads.
-// A Monte Carlo wave (16 chunks of 32 runs) is 8 blocks.
-constexpr std::size_t kRunsPerBlock = 64;
+// Design runs go in smaller blocks than Monte Carlo waves (ModelRunner's
+// default), so that a few hundred of them still balance over threads.
 constexpr std::size_t kDesignRunsPerBlock = 16;
-
-/// Model runs at germ points [begin, end) of `points` (sample index first + i) into
-/// rows of width T·n_out + 1: the outputs, then 1 (ran) or 0 (failed). Batched
-/// (structure of arrays) where the integrator allows; a failed lane is rerun on
-/// the one-run path so that its error is exactly the one-run error. With
-/// `rethrow`, a failure throws that NumericalError; otherwise it is flagged.
-void run_block(const LoadedCase& loaded, const model::BatchPropagator& batch, const Eigen::MatrixXd& points,
-               long long first, std::size_t begin, std::size_t end, double* rows, bool rethrow) {
-  const auto& cl = *loaded.closed_loop;
-  const std::size_t columns = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
-  const std::size_t width = columns + 1;
-  const std::size_t lanes = end - begin;
-  std::vector<std::uint8_t> ok(lanes, 0);
-  if (batch.supported()) {
-    std::vector<model::Perturbation> perturbations(lanes, cl.nominal());
-    for (std::size_t l = 0; l < lanes; ++l) {
-      const Eigen::RowVectorXd xi = points.row(static_cast<Eigen::Index>(begin + l));
-      loaded.germ->apply(xi.data(), perturbations[l]);
-    }
-    batch.run(perturbations.data(), static_cast<int>(lanes), rows, width, ok.data());
-  }
-  for (std::size_t l = 0; l < lanes; ++l) {
-    double* row = rows + l * width;
-    if (!ok[l]) {
-      const Eigen::RowVectorXd xi = points.row(static_cast<Eigen::Index>(begin + l));
-      try {
-        run_at(loaded, xi.data(), first + static_cast<long long>(begin + l), row);
-        ok[l] = 1;
-      } catch (const NumericalError&) {
-        if (rethrow) throw;
-      }
-    }
-    row[columns] = ok[l] ? 1.0 : 0.0;
-  }
-}
 
 expansion::Surrogate constant_surrogate(const result::AnalysisResult& r) {
   expansion::Surrogate s;
@@ -196,7 +157,7 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
   const long long samples = d == 0 ? 1 : options.samples.value_or(loaded.options.surrogate.samples);
   const Eigen::VectorXd times = times_vector(r.time);
 
-  const model::BatchPropagator batch(cl, loaded.options);
+  const ModelRunner runner(loaded);
 
   // 1. Surrogate from one set of design runs.
   expansion::Surrogate surrogate;
@@ -213,17 +174,13 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
       const long long first = design_runs_done;
       values.resize(points.rows(), static_cast<Eigen::Index>(n_times) * n_out);
       ProgressBar bar("surrogate design runs", static_cast<std::size_t>(points.rows()), options.progress);
-      std::atomic<std::size_t> done{0};
       // Spread over ranks and threads; every rank ends up with every row.
-      const std::size_t width = static_cast<std::size_t>(values.cols()) + 1;
-      std::vector<double> rows(static_cast<std::size_t>(points.rows()) * width);
-      run_distributed_rows(static_cast<std::size_t>(points.rows()), width, kDesignRunsPerBlock, threads,
-                           [&](std::size_t begin, std::size_t end, double* block) {
-                             run_block(loaded, batch, points, first, begin, end, block, true);
-                             bar.update(done += end - begin);
-                           }, rows.data());
+      std::vector<double> rows(static_cast<std::size_t>(points.rows()) * static_cast<std::size_t>(values.cols()));
+      std::vector<std::uint8_t> ok(static_cast<std::size_t>(points.rows()));
+      runner.run(points, first, threads, kDesignRunsPerBlock, rows.data(), ok.data(), true);
       for (Eigen::Index i = 0; i < points.rows(); ++i)
-        for (Eigen::Index c = 0; c < values.cols(); ++c) values(i, c) = rows[static_cast<std::size_t>(i) * width + static_cast<std::size_t>(c)];
+        values.row(i) = Eigen::Map<const Eigen::RowVectorXd>(rows.data() + i * values.cols(), values.cols());
+      bar.update(static_cast<std::size_t>(points.rows()));
       bar.finish();
       design_runs_done += points.rows();
     };
@@ -358,20 +315,9 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
     };
     // Each wave of runs goes over ranks and threads; the accumulators then see
     // the same rows in the same order on every rank.
-    run_options.run_rows = [&](long long begin, long long end, const Eigen::MatrixXd& xi, double* outputs,
+    run_options.run_rows = [&](long long begin, long long, const Eigen::MatrixXd& xi, double* outputs,
                                std::uint8_t* ok) {
-      const std::size_t count = static_cast<std::size_t>(end - begin);
-      const std::size_t columns = static_cast<std::size_t>(n_times) * static_cast<std::size_t>(n_out);
-      std::vector<double> rows(count * (columns + 1));
-      run_distributed_rows(count, columns + 1, kRunsPerBlock, threads,
-                           [&](std::size_t b, std::size_t e, double* block) {
-                             run_block(loaded, batch, xi, begin, b, e, block, false);
-                           }, rows.data());
-      for (std::size_t i = 0; i < count; ++i) {
-        const double* row = rows.data() + i * (columns + 1);
-        ok[i] = row[columns] != 0.0 ? 1 : 0;
-        std::copy(row, row + columns, outputs + i * columns);
-      }
+      runner.run(xi, begin, threads, app::ModelRunner::kDefaultBlock, outputs, ok, false);
     };
     const montecarlo::SurrogateEvaluator evaluate_surrogate = [&](const Eigen::MatrixXd& xi, Eigen::MatrixXd& values) {
       surrogate.evaluate(xi, values);

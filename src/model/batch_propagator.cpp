@@ -17,6 +17,52 @@
 
 namespace sigmatube::model {
 
+namespace {
+
+// One RK stage of the HCW closed loop for all lanes (6 states, 3 inputs):
+//   u = u_ff − K (x − x_ref)  (Controller::command: j outer, i inner, e = 0 skipped),
+//   a = clamp(scale·u + bias, low, high),  dx = HillClohessyWiltshire::rhs(x, a, n).
+// Operation for operation the one-run path, so the results are bit-identical.
+void hcw_closed_loop_stage(std::size_t L, const double* __restrict x, const double* __restrict x_ref,
+                           const double* __restrict u_ff, const double* __restrict K, const double* __restrict scale,
+                           const double* __restrict bias, const double* __restrict low, const double* __restrict high,
+                           const double* __restrict mean_motion, double* __restrict u_cmd, double* __restrict u_app,
+                           double* __restrict dx) {
+  constexpr int n = 6, m = 3;
+  for (std::size_t l = 0; l < L; ++l) {
+    double xs[n], u[m];
+    for (int j = 0; j < n; ++j) xs[j] = x[j * L + l];
+    for (int i = 0; i < m; ++i) u[i] = u_ff[i];
+    // Selects of values computed unconditionally; the results are those of the
+    // branches of the one-run path.
+    for (int j = 0; j < n; ++j) {
+      const double e = xs[j] - x_ref[j];
+      for (int i = 0; i < m; ++i) {
+        const double term = K[i * n + j] * e;
+        u[i] -= e != 0.0 ? term : 0.0;
+      }
+    }
+    double a[m];
+    for (int i = 0; i < m; ++i) {
+      double v = scale[i * L + l] * u[i] + bias[i * L + l];
+      v = v < low[i] ? low[i] : v;  // std::clamp(v, low, high), NaN passed through alike
+      v = high[i] < v ? high[i] : v;
+      a[i] = v;
+      u_cmd[i * L + l] = u[i];
+      u_app[i * L + l] = a[i];
+    }
+    const double nl = mean_motion[l];
+    dx[l] = xs[3];
+    dx[L + l] = xs[4];
+    dx[2 * L + l] = xs[5];
+    dx[3 * L + l] = 3.0 * nl * nl * xs[0] + 2.0 * nl * xs[4] + a[0];
+    dx[4 * L + l] = -2.0 * nl * xs[3] + a[1];
+    dx[5 * L + l] = -nl * nl * xs[2] + a[2];
+  }
+}
+
+}  // namespace
+
 BatchPropagator::BatchPropagator(const ClosedLoop& closed_loop, const casefile::CaseOptions& options)
     : closed_loop_(closed_loop), simulation_(options.simulation) {
   const Model& model = closed_loop.model();
@@ -127,7 +173,7 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
   const bool constant_gain = controller.gain_times().size() <= 1;
   bool gain_ready = false;
   std::vector<double> error(L);
-  auto inputs_at = [&](double t, const double* state) {
+  auto prepare = [&](double t) {
     if (!(t == cached_t)) {
       plan.evaluate(t, x_ref.data(), u_ff.data());
       for (int j = 0; j < n && !(constant_gain && gain_ready); ++j) {
@@ -139,6 +185,9 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
       cached_t = t;
       gain_ready = true;
     }
+  };
+  auto inputs_at = [&](double t, const double* state) {
+    prepare(t);
     for (int i = 0; i < m; ++i) {
       double* u = u_cmd.data() + i * L;
       std::fill(u, u + L, u_ff[static_cast<std::size_t>(i)]);
@@ -164,8 +213,14 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
   };
 
   auto rhs = [&](double t, const double* state, double* dxdt) {
-    inputs_at(t, state);
-    if (hcw_) {
+    if (hcw_ && !open_loop) {
+      // Fused: feedback, saturation and HillClohessyWiltshire::rhs per lane with
+      // the lane's values in registers, in exactly the order of the one-run path.
+      prepare(t);
+      hcw_closed_loop_stage(L, state, x_ref.data(), u_ff.data(), gain.data(), scale.data(), bias.data(),
+                            input_low_.data(), input_high_.data(), params.data(), u_cmd.data(), u_app.data(), dxdt);
+    } else if (hcw_) {
+      inputs_at(t, state);
       // HillClohessyWiltshire::rhs, lane by lane in one loop.
       const double* nn = params.data();
       const double *x0 = state, *x2 = state + 2 * L, *x3 = state + 3 * L, *x4 = state + 4 * L,
@@ -181,6 +236,7 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
         dxdt[5 * L + l] = -nl * nl * x2[l] + a2[l];
       }
     } else if (!programs_.empty()) {
+      inputs_at(t, state);
       std::fill(t_lanes.begin(), t_lanes.end(), t);
       variables[0] = t_lanes.data();
       for (int i = 0; i < n; ++i) variables[1 + static_cast<std::size_t>(i)] = state + i * L;
@@ -188,6 +244,7 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
       for (int i = 0; i < n_params; ++i) variables[1 + static_cast<std::size_t>(n + m + i)] = params.data() + i * L;
       for (int i = 0; i < n; ++i) programs_[static_cast<std::size_t>(i)].evaluate(variables.data(), L, dxdt + i * L, scratch.data());
     } else {
+      inputs_at(t, state);
       for (std::size_t l = 0; l < L; ++l) {
         for (int i = 0; i < n; ++i) lane_x[static_cast<std::size_t>(i)] = state[i * L + l];
         for (int i = 0; i < m; ++i) lane_u[static_cast<std::size_t>(i)] = u_app[i * L + l];

@@ -126,11 +126,14 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
     if (run_options.run_rows) {
       const Eigen::Index wave_rows = wave_end - wave_begin;
       Eigen::MatrixXd wave_xi(wave_rows, d);
-      std::vector<double> point(static_cast<std::size_t>(d));
-      for (long long sample = wave_begin; sample < wave_end; ++sample) {
-        germ_point(families, options.seed, sample, point.data());
-        for (int j = 0; j < d; ++j) wave_xi(sample - wave_begin, j) = point[static_cast<std::size_t>(j)];
-      }
+      parallel_for_chunks(static_cast<std::size_t>(wave_rows), static_cast<std::size_t>(chunk), run_options.threads,
+                          [&](std::size_t b, std::size_t e) {
+                            std::vector<double> point(static_cast<std::size_t>(d));
+                            for (std::size_t r = b; r < e; ++r) {
+                              germ_point(families, options.seed, wave_begin + static_cast<long long>(r), point.data());
+                              for (int j = 0; j < d; ++j) wave_xi(static_cast<Eigen::Index>(r), j) = point[static_cast<std::size_t>(j)];
+                            }
+                          });
       wave_outputs.setConstant(wave_rows, columns, kNaN);
       wave_ok.assign(static_cast<std::size_t>(wave_rows), 0);
       run_options.run_rows(wave_begin, wave_end, wave_xi, wave_outputs.data(), wave_ok.data());

@@ -4,6 +4,7 @@
 #include <fstream>
 #include <iomanip>
 #include <sstream>
+#include <utility>
 
 #include "sigmatube/casefile/case_reader.h"
 #include "sigmatube/casefile/case_validation.h"
@@ -78,10 +79,12 @@ std::string join(const std::vector<std::string>& names) {
 
 }  // namespace
 
-LoadedCase load_case(const std::string& path) {
+LoadedCase load_case(const std::string& path) { return load_case(casefile::read_case(path)); }
+
+LoadedCase load_case(casefile::CaseOptions options) {
   LoadedCase loaded;
-  loaded.options = casefile::read_case(path);
-  loaded.case_sha256 = sha256_hex(read_bytes(path));
+  loaded.case_sha256 = sha256_hex(read_bytes(options.path));
+  loaded.options = std::move(options);
   auto model = std::shared_ptr<const model::Model>(model::make_model(loaded.options.model));
   loaded.model = model;
 

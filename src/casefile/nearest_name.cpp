@@ -60,4 +60,10 @@ std::string join_names(const std::vector<std::string>& names) {
   return out;
 }
 
+std::string suggestion_or_list(const std::string& word, const std::vector<std::string>& candidates) {
+  if (candidates.empty()) return " (there are none)";
+  const std::string close = did_you_mean(word, candidates);
+  return close.empty() ? " (known: " + join_names(candidates) + ")" : close;
+}
+
 }  // namespace sigmatube::casefile

@@ -6,6 +6,7 @@
 #include <CLI/CLI.hpp>
 
 #include <cstdio>
+#include <cstdlib>
 #include <exception>
 #include <fstream>
 #include <iostream>
@@ -74,6 +75,9 @@ std::string run_help_footer() {
 }  // namespace
 
 int main(int argc, char** argv) {
+  // muparser's bulk mode parallelizes with OpenMP; our own worker threads already
+  // use every core, so nested OpenMP threads would only oversubscribe them.
+  ::setenv("OMP_NUM_THREADS", "1", 0);
   // Under mpirun every rank runs this program; model runs are shared out inside
   // the library, and only rank 0 prints and writes files.
   const DistributedSession session(&argc, &argv);
@@ -125,6 +129,8 @@ int main(int argc, char** argv) {
   batch->add_option("SUITE", suite_path, "suite file (TOML)")->required();
   batch->add_option("-d,--directory", directory, "folder for the result files")->required();
   batch->add_option("--junit", junit, "write JUnit XML to FILE");
+  batch->add_option("--samples", samples, "surrogate samples for probabilities (overrides the suite and cases)")
+      ->check(CLI::PositiveNumber);
   add_common(batch, common, true);
 
   auto* report = cli.add_subcommand("report", "Write a self-contained HTML page with plots of a result.");
@@ -223,6 +229,7 @@ int main(int argc, char** argv) {
     if (batch->parsed()) {
       app::BatchOptions options;
       options.analysis = analysis_options(common);
+      options.analysis.samples = samples;
       options.directory = directory;
       options.force = common.force;
       options.junit_path = junit;

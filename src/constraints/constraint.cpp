@@ -219,8 +219,12 @@ Constraint::Constraint(const casefile::ConstraintOptions& options, const std::ve
         }
       } catch (const mu::Parser::exception_type& e) {
         std::ostringstream msg;
-        msg << "constraint '" << o.name << "': clearance expression \"" << o.clearance << "\": " << e.GetMsg()
-            << " at position " << e.GetPos() + 1 << " (names with '.' are written with '_', e.g. cmd_ax)";
+        // muparser counts positions from 0 and usually names the position itself.
+        msg << "constraint '" << o.name << "': clearance expression \"" << o.clearance << "\": " << e.GetMsg();
+        if (e.GetMsg().find("position") == std::string::npos && e.GetPos() >= 0) {
+          msg << " at position " << e.GetPos() << " (counted from 0)";
+        }
+        msg << " (names with '.' are written with '_', e.g. cmd_ax)";
         throw InputError(at_key(o.where, "clearance"), msg.str());
       }
       break;
@@ -297,26 +301,31 @@ void Constraint::clearance(const Eigen::Ref<const Eigen::MatrixXd>& block, doubl
       }
       return;
     case ConstraintKind::inside_box:
+      // Written out per coordinate: this runs for millions of surrogate samples.
       for (Eigen::Index i = 0; i < rows; ++i) {
-        position(i, p);
-        const Eigen::VectorXd below = m.low - p, above = p - m.high;
-        const Eigen::VectorXd outside = below.cwiseMax(above).cwiseMax(0.0);
-        const double out = outside.norm();
-        c[i] = out > 0.0 ? -out : std::min((p - m.low).minCoeff(), (m.high - p).minCoeff());
+        double outside2 = 0.0, inside = std::numeric_limits<double>::infinity();
+        for (std::size_t k = 0; k < n; ++k) {
+          const Eigen::Index e = static_cast<Eigen::Index>(k);
+          const double x = block(i, m.indices[k]);
+          const double excess = std::max({m.low[e] - x, x - m.high[e], 0.0});
+          outside2 += excess * excess;
+          inside = std::min({inside, x - m.low[e], m.high[e] - x});
+        }
+        c[i] = outside2 > 0.0 ? -std::sqrt(outside2) : inside;
       }
       return;
     case ConstraintKind::inside_cone:
       for (Eigen::Index i = 0; i < rows; ++i) {
         position(i, p);
-        const Eigen::VectorXd v = p - m.apex;
-        const double h = v.dot(m.axis_unit);
-        const double rho = (v - h * m.axis_unit).norm();
+        p -= m.apex;  // p now holds v = p − apex
+        const double h = p.dot(m.axis_unit);
+        const double rho = (p - h * m.axis_unit).norm();
         const double across = h * m.sin_half - rho * m.cos_half;  // > 0 inside, distance to the generator line
         if (across >= 0.0) {
           c[i] = across;
         } else {
           const double along = h * m.cos_half + rho * m.sin_half;  // ≥ 0: the nearest surface point is on the generator, not the apex
-          c[i] = along >= 0.0 ? across : -v.norm();
+          c[i] = along >= 0.0 ? across : -p.norm();
         }
       }
       return;

@@ -39,6 +39,19 @@ QuadratureRule gauss_rule(const germ::FamilySpec& spec, int n) {
     rule.nodes[j] = x;
   }
   std::sort(rule.nodes.data(), rule.nodes.data() + n);
+  // Symmetric measures (hermite, legendre, jacobi with a = b) get exactly mirrored
+  // nodes and an exact 0 for odd n, so that rules of different sizes share the
+  // point ξ = 0 bit for bit and a design runs it once.
+  const bool symmetric = spec.family == germ::Family::hermite || spec.family == germ::Family::legendre ||
+                         (spec.family == germ::Family::jacobi && spec.a == spec.b);
+  if (symmetric) {
+    for (int j = 0; j < n / 2; ++j) {
+      const double x = 0.5 * (rule.nodes[n - 1 - j] - rule.nodes[j]);
+      rule.nodes[j] = -x;
+      rule.nodes[n - 1 - j] = x;
+    }
+    if (n % 2 == 1) rule.nodes[n / 2] = 0.0;
+  }
   Eigen::MatrixXd psi(n, n + 1);
   polys.evaluate(rule.nodes, psi);
   rule.weights = psi.leftCols(n).rowwise().squaredNorm().cwiseInverse();

@@ -30,8 +30,9 @@ Eigen::MatrixXd sobol_unit_cube(int dimension, int n_points) {
   if (dimension > kMaxSobolDimension)
     throw InputError(SourceLocation{"", 0, "surrogate.design"},
                      "the Sobol design supports at most 3667 germ dimensions");
+  // boost's engine starts at sequence index 1: the all-zero point never appears,
+  // so every u_k lies in (0, 1) and the quantile maps stay finite.
   boost::random::sobol engine(dimension);
-  engine.discard(dimension);  // skip the all-zero first point
   const double scale = std::ldexp(1.0, -64);
   Eigen::MatrixXd u(n_points, dimension);
   for (int i = 0; i < n_points; ++i)

@@ -358,17 +358,28 @@ Eigen::VectorXd top_degree_estimate(const Fit& f) {
   return squared.cwiseSqrt().transpose().cwiseQuotient(scale_of(f));
 }
 
-// Per output: the largest column estimate over report times (NaN wins).
-Eigen::VectorXd per_output(const Eigen::VectorXd& columns, int n_times, int n_outputs) {
+// Per output: the column estimates pooled over report times, weighted by each
+// column's spread, so that a report time where the output hardly varies (say the
+// initial instant of an unperturbed state) cannot dominate:
+//   norm ratios (‖ΔC_c‖/s_c):     √(Σ_t ‖ΔC_c‖²) / √(Σ_t s_c²)
+//   ratios of squares (LOO):      Σ_t ε_c s_c² / Σ_t s_c²
+// i.e. the relative error of the output's whole time history. NaN wins.
+Eigen::VectorXd per_output(const Eigen::VectorXd& columns, const Eigen::VectorXd& scale, bool ratio_of_squares,
+                           int n_times, int n_outputs) {
   Eigen::VectorXd result = Eigen::VectorXd::Constant(n_outputs, 0.0);
-  for (int o = 0; o < n_outputs; ++o)
+  for (int o = 0; o < n_outputs; ++o) {
+    double numerator = 0.0, denominator = 0.0;
+    bool nan = false;
     for (int t = 0; t < n_times; ++t) {
       const double e = columns[t * n_outputs + o];
-      if (std::isnan(e) || std::isnan(result[o]))
-        result[o] = std::numeric_limits<double>::quiet_NaN();
-      else
-        result[o] = std::max(result[o], e);
+      const double s2 = scale[t * n_outputs + o] * scale[t * n_outputs + o];
+      if (std::isnan(e)) nan = true;
+      numerator += ratio_of_squares ? e * s2 : e * e * s2;
+      denominator += s2;
     }
+    result[o] = nan ? std::numeric_limits<double>::quiet_NaN()
+                    : (ratio_of_squares ? numerator / denominator : std::sqrt(numerator / denominator));
+  }
   return result;
 }
 
@@ -455,6 +466,18 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
     out.notes.push_back("surrogate.nested applies to sparse grids only and was ignored");
 
   RunCache cache(n_columns, &evaluate);
+  {
+    // One evaluator call for every point of the first design(s).
+    Eigen::Index rows = 0;
+    for (const auto& d : designs) rows += d.points.rows();
+    Eigen::MatrixXd all(rows, static_cast<Eigen::Index>(families.size()));
+    rows = 0;
+    for (const auto& d : designs) {
+      all.middleRows(rows, d.points.rows()) = d.points;
+      rows += d.points.rows();
+    }
+    cache.values(all);
+  }
   std::optional<Fit> coarse;
   if (designs.size() > 1) coarse = fit(families, options, designs[1], cache);
   Fit current = fit(families, options, designs[0], cache);
@@ -476,7 +499,8 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
     return true;
   };
 
-  Eigen::VectorXd errors = per_output(estimate(current, coarse), n_times, n_outputs);
+  const bool loo = method == casefile::SurrogateMethod::regression;
+  Eigen::VectorXd errors = per_output(estimate(current, coarse), scale_of(current), loo, n_times, n_outputs);
   if (method == casefile::SurrogateMethod::sparse_grid && !start.needs_previous)
     out.notes.push_back("sparse-grid level 1 has no coarser level: no error estimate");
 
@@ -515,7 +539,7 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
       }
       coarse = std::move(current);
       current = fit(families, options, *design, cache);
-      errors = per_output(estimate(current, coarse), n_times, n_outputs);
+      errors = per_output(estimate(current, coarse), scale_of(current), loo, n_times, n_outputs);
     }
   }
 

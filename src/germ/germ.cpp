@@ -10,6 +10,7 @@
 #include <sstream>
 #include <stdexcept>
 
+#include "sigmatube/casefile/nearest_name.h"
 #include "sigmatube/core/counter_rng.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/germ/karhunen_loeve.h"
@@ -41,38 +42,8 @@ double upper_quantile(double q) {
 // anything above round-off is a typing mistake (common practice).
 constexpr double kSymmetryTolerance = 1e-12;
 
-// Levenshtein distance, for "did you mean" suggestions.
-std::size_t edit_distance(const std::string& a, const std::string& b) {
-  std::vector<std::size_t> row(b.size() + 1);
-  for (std::size_t j = 0; j <= b.size(); ++j) row[j] = j;
-  for (std::size_t i = 1; i <= a.size(); ++i) {
-    std::size_t diagonal = row[0];
-    row[0] = i;
-    for (std::size_t j = 1; j <= b.size(); ++j) {
-      const std::size_t above = row[j];
-      row[j] = std::min({row[j] + 1, row[j - 1] + 1, diagonal + (a[i - 1] == b[j - 1] ? 0 : 1)});
-      diagonal = above;
-    }
-  }
-  return row[b.size()];
-}
-
-// " (did you mean 'x'?)" when some candidate is close, else the list of candidates.
 std::string suggestion(const std::string& word, const std::vector<std::string>& candidates) {
-  if (candidates.empty()) return " (there are none)";
-  const std::string* best = nullptr;
-  std::size_t best_distance = std::numeric_limits<std::size_t>::max();
-  for (const auto& candidate : candidates) {
-    const std::size_t d = edit_distance(word, candidate);
-    if (d < best_distance) {
-      best_distance = d;
-      best = &candidate;
-    }
-  }
-  if (best_distance <= std::max<std::size_t>(2, word.size() / 3)) return " (did you mean '" + *best + "'?)";
-  std::string list = " (known: ";
-  for (std::size_t i = 0; i < candidates.size(); ++i) list += (i ? ", " : "") + candidates[i];
-  return list + ")";
+  return casefile::suggestion_or_list(word, candidates);
 }
 
 SourceLocation at_key(const UncertainOptions& entry, const std::string& key) {

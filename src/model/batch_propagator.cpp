@@ -295,7 +295,8 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
         model.derived_outputs(t, lane_x.data(), lane_u.data(), lane_p.data(), lane_y.data());
         for (int j = 0; j < n_derived; ++j) row[n + j] = lane_y[static_cast<std::size_t>(j)];
       }
-      for (int i = 0; i < m; ++i) row[n + n_derived + i] = u_cmd[i * L + l];
+      // "cmd.<input>": the demand on the actuator before saturation, as ClosedLoop::run.
+      for (int i = 0; i < m; ++i) row[n + n_derived + i] = scale[i * L + l] * u_cmd[i * L + l] + bias[i * L + l];
     }
   };
 

@@ -7,7 +7,7 @@
 #include <sstream>
 #include <stdexcept>
 
-#include "nearest_name.h"
+#include "sigmatube/casefile/nearest_name.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/model/controller.h"
 #include "sigmatube/model/integrator.h"
@@ -38,7 +38,7 @@ ClosedLoop::ClosedLoop(std::shared_ptr<const Model> model, const casefile::CaseO
     const auto it = std::find(inputs.begin(), inputs.end(), limit.input);
     if (it == inputs.end())
       throw InputError(where, "limit for unknown input '" + limit.input + "' of model '" + model_->name() + "'" +
-                                  detail::suggestion(limit.input, inputs));
+                                  casefile::suggestion_or_list(limit.input, inputs));
     if (!(limit.low <= limit.high) || std::isnan(limit.low) || std::isnan(limit.high))
       throw InputError(where, "limits must be [low, high] with low ≤ high");
     const auto i = static_cast<Eigen::Index>(it - inputs.begin());
@@ -95,7 +95,7 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
     throw std::logic_error("ClosedLoop::run: outputs must be [report times, output_count()]");
 
   // Work arrays of this run; the right-hand side below allocates nothing.
-  Eigen::VectorXd x_ref(n), u_ff(m), u_cmd(m), u_app(m), x(n);
+  Eigen::VectorXd x_ref(n), u_ff(m), u_cmd(m), u_app(m), x(n), derived(n_derived);
   const double* p = perturbation.parameters.data();
 
   // Evaluates u_cmd and u_app at (t, state).
@@ -134,11 +134,13 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
     for (int i = 0; i < n; ++i) outputs(row, i) = state[i];
     if (n_derived > 0) {
       // Derived outputs see the applied (saturated) input, like the dynamics do.
-      Eigen::VectorXd y(n_derived);
-      model_->derived_outputs(t, state, u_app.data(), p, y.data());
-      for (int j = 0; j < n_derived; ++j) outputs(row, n + j) = y(j);
+      model_->derived_outputs(t, state, u_app.data(), p, derived.data());
+      for (int j = 0; j < n_derived; ++j) outputs(row, n + j) = derived(j);
     }
-    for (int i = 0; i < m; ++i) outputs(row, n + n_derived + i) = u_cmd(i);
+    // The demand on the actuator, before saturation: what an input limit judges and
+    // what tells a saturated run from a smooth one.
+    for (int i = 0; i < m; ++i)
+      outputs(row, n + n_derived + i) = perturbation.input_scale(i) * u_cmd(i) + perturbation.input_bias(i);
   };
 
   x = plan_->reference_state(report_times_.front()) + perturbation.initial_offset;

@@ -8,7 +8,7 @@
 #include <set>
 #include <sstream>
 
-#include "nearest_name.h"
+#include "sigmatube/casefile/nearest_name.h"
 
 namespace sigmatube::model {
 
@@ -69,7 +69,7 @@ ExpressionModel::ExpressionModel(const casefile::ModelOptions& options)
   for (const auto& e : options.rhs) {
     const auto it = std::find(states_.begin(), states_.end(), e.name);
     if (it == states_.end())
-      throw InputError(located(e, "rhs"), "rhs for unknown state '" + e.name + "'" + detail::suggestion(e.name, states_));
+      throw InputError(located(e, "rhs"), "rhs for unknown state '" + e.name + "'" + casefile::suggestion_or_list(e.name, states_));
     const auto k = static_cast<std::size_t>(it - states_.begin());
     if (given[k]) throw InputError(located(e, "rhs"), "second rhs for state '" + e.name + "'");
     given[k] = true;
@@ -122,7 +122,7 @@ std::unique_ptr<ExpressionModel::Evaluator> ExpressionModel::compile() const {
       std::ostringstream message;
       if (error.GetCode() == mu::ecUNASSIGNABLE_TOKEN) {
         message << "undefined symbol '" << error.GetToken() << "' at position " << error.GetPos() << " in \""
-                << e.text << "\"" << detail::suggestion(error.GetToken(), known);
+                << e.text << "\"" << casefile::suggestion_or_list(error.GetToken(), known);
       } else {
         message << "syntax error at position " << error.GetPos() << " in \"" << e.text << "\": " << error.GetMsg();
       }

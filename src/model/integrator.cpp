@@ -32,9 +32,9 @@ constexpr double d1 = -12715105075.0 / 11282082432.0, d3 = 87487479700.0 / 32700
 OdeIntegrator::OdeIntegrator(const casefile::SimulationOptions& options, int dimension)
     : options_(options), n_(dimension) {
   if (!(options.step_in_seconds > 0.0) || !std::isfinite(options.step_in_seconds))
-    throw InputError(options.where, "simulation.step must be a positive number of seconds");
+    throw InputError(SourceLocation{options.where.file, options.where.line, "simulation.step"}, "must be a positive number of seconds");
   if (options.integrator == casefile::IntegratorKind::dopri5 && (!(options.rtol > 0.0) || !(options.atol > 0.0)))
-    throw InputError(options.where, "simulation.rtol and simulation.atol must be > 0");
+    throw InputError(SourceLocation{options.where.file, options.where.line, "simulation.rtol"}, "rtol and atol must be > 0");
   for (auto* v : {&k1_, &k2_, &k3_, &k4_, &k5_, &k6_, &k7_, &y_, &ynew_, &err_, &dense_, &r1_, &r2_, &r3_, &r4_, &r5_})
     v->resize(n_);
 }
@@ -135,7 +135,14 @@ void OdeIntegrator::integrate_dopri5(const Rhs& f, const std::vector<double>& ti
   double fac_old = 1e-4;
   bool last_rejected = false;
   while (next < times.size()) {
-    if (h < hmin) {
+    bool final_step = false;
+    // Stretch the last step by up to 1% (Hairer's DOPRI5 does the same) so that
+    // rounding in t never leaves a sliver step before tf, but never beyond hmax.
+    if (tf - t <= 1.01 * h && tf - t <= hmax * (1.0 + 1e-9)) {
+      h = tf - t;
+      final_step = true;
+    }
+    if (!final_step && h < hmin) {
       std::ostringstream message;
       int worst = 0;
       for (int i = 1; i < n_; ++i)
@@ -146,11 +153,6 @@ void OdeIntegrator::integrate_dopri5(const Rhs& f, const std::vector<double>& ti
                                                                       : std::to_string(worst))
               << "' = " << y(worst);
       throw NumericalError(message.str(), sample_, t);
-    }
-    bool final_step = false;
-    if (t + h >= tf || (t + 1.01 * h >= tf && tf - t <= hmax)) {
-      h = tf - t;
-      final_step = true;
     }
     f(t + c2 * h, (y_ = y + h * a21 * k1_).data(), k2_.data());
     f(t + c3 * h, (y_ = y + h * (a31 * k1_ + a32 * k2_)).data(), k3_.data());

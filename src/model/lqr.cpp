@@ -3,6 +3,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <stdexcept>
 
 #include "sigmatube/core/error.h"
 #include "sigmatube/model/continuous_algebraic_riccati_equation.h"
@@ -30,6 +31,8 @@ RiccatiSchedule solve_riccati_differential_equation(const Model& model, const Pl
                                                     const Eigen::MatrixXd& R, double max_step_in_seconds,
                                                     const Eigen::MatrixXd* terminal_cost) {
   if (!(max_step_in_seconds > 0.0)) throw std::logic_error("solve_riccati_differential_equation: step must be > 0");
+  if (terminal_cost && (terminal_cost->rows() != Q.rows() || terminal_cost->cols() != Q.cols()))
+    throw std::logic_error("solve_riccati_differential_equation: terminal cost must be n×n");
   const auto& knots = plan.times();
   RiccatiSchedule schedule;
   for (std::size_t k = 0; k + 1 < knots.size(); ++k) {

@@ -4,7 +4,7 @@
 #include <algorithm>
 #include <cmath>
 
-#include "nearest_name.h"
+#include "sigmatube/casefile/nearest_name.h"
 #include "sigmatube/model/builtin_models.h"
 #include "sigmatube/model/expression_model.h"
 
@@ -19,7 +19,7 @@ std::unique_ptr<BuiltinModel> make_builtin(const casefile::ModelOptions& options
   if (name == "multirotor-point-mass") return std::make_unique<MultirotorPointMass>();
   SourceLocation where = options.where;
   if (where.key.empty()) where.key = "model.builtin";
-  throw InputError(where, "unknown built-in model '" + name + "'" + detail::suggestion(name, builtin_model_names()));
+  throw InputError(where, "unknown built-in model '" + name + "'" + casefile::suggestion_or_list(name, builtin_model_names()));
 }
 
 void check_physical(const BuiltinModel& model, const std::string& parameter, double value, const SourceLocation& where) {
@@ -45,7 +45,7 @@ std::unique_ptr<Model> make_model(const casefile::ModelOptions& options) {
     const auto it = std::find(names.begin(), names.end(), parameter.name);
     if (it == names.end())
       throw InputError(where, "unknown parameter '" + parameter.name + "' of built-in model '" + model->name() + "'" +
-                                  detail::suggestion(parameter.name, names));
+                                  casefile::suggestion_or_list(parameter.name, names));
     check_physical(*model, parameter.name, parameter.value, where);
     model->set_parameter(static_cast<int>(it - names.begin()), parameter.value);
   }

@@ -8,7 +8,7 @@
 #include <fstream>
 #include <sstream>
 
-#include "nearest_name.h"
+#include "sigmatube/casefile/nearest_name.h"
 
 namespace sigmatube::model {
 namespace {
@@ -75,6 +75,7 @@ Plan::Plan(const casefile::PlanOptions& options, const Model& model) : interpola
 
   // Per column: +k = state k, -(k+1) = input k, 0 is `t` (column 0 only).
   std::vector<int> target;
+  std::vector<std::string> header;
   std::vector<std::vector<double>> rows;
   std::vector<int> row_lines;
   std::string line;
@@ -90,6 +91,7 @@ Plan::Plan(const casefile::PlanOptions& options, const Model& model) : interpola
       if (cells.empty() || cells[0] != "t")
         throw fail(line_number, cells.empty() ? "1" : "'" + cells[0] + "'", "the first column must be 't' (time in seconds)");
       target.push_back(0);
+      header = cells;
       for (std::size_t c = 1; c < cells.size(); ++c) {
         const std::string& name = cells[c];
         const auto s = std::find(states.begin(), states.end(), name);
@@ -99,7 +101,7 @@ Plan::Plan(const casefile::PlanOptions& options, const Model& model) : interpola
         else if (u != inputs.end()) code = -1 - static_cast<int>(u - inputs.begin());
         else
           throw fail(line_number, "'" + name + "'",
-                     "names no state or input of model '" + model.name() + "'" + detail::suggestion(name, known));
+                     "names no state or input of model '" + model.name() + "'" + casefile::suggestion_or_list(name, known));
         if (std::find(target.begin(), target.end(), code) != target.end())
           throw fail(line_number, "'" + name + "'", "column repeated");
         target.push_back(code);
@@ -118,14 +120,14 @@ Plan::Plan(const casefile::PlanOptions& options, const Model& model) : interpola
       errno = 0;
       const double value = std::strtod(begin, &end);
       if (cells[c].empty() || end == begin || *end != '\0' || !std::isfinite(value))
-        throw fail(line_number, std::to_string(c + 1), "not a finite number: '" + cells[c] + "'");
+        throw fail(line_number, "'" + header[c] + "'", "not a finite number: '" + cells[c] + "'");
       row[c] = value;
     }
     if (!rows.empty() && !(row[0] > rows.back()[0])) {
       std::ostringstream message;
       message << "times must increase strictly: t = " << row[0] << " after t = " << rows.back()[0]
               << " (line " << row_lines.back() << ")";
-      throw fail(line_number, "t", message.str());
+      throw fail(line_number, "'t'", message.str());
     }
     rows.push_back(std::move(row));
     row_lines.push_back(line_number);

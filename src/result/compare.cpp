@@ -33,9 +33,9 @@ double checked_value(const std::string& path, const std::string& key, const toml
   const double v = number_value(path, key, node);
   const bool ok = std::isfinite(v) && (open_lo ? v > lo : v >= lo) && v <= hi;
   if (!ok)
-    throw InputError(SourceLocation{path, line_of(node), key},
-                     "value " + format_value(v, 6) + " out of range " + (open_lo ? "(" : "[") + format_value(lo) +
-                         ", " + format_value(hi) + "]");
+    throw InputError(SourceLocation{path, line_of(node), key}, "value " + format_value(v, 6) + " out of range " +
+                                                                   (open_lo ? "(" : "[") + format_value(lo) + ", " +
+                                                                   format_value(hi) + "]");
   return v;
 }
 
@@ -106,7 +106,8 @@ void CompareOptions::validate() const {
   nonnegative("max_increase", max_absolute_increase);
   if (!(significance > 0 && significance < 1))
     throw InputError(SourceLocation{"", 0, "significance"}, "must lie in (0, 1), got " + format_value(significance, 6));
-  for (const auto& [name, v] : max_increase_ratio_override) nonnegative("constraint." + name + ".max_increase_ratio", v);
+  for (const auto& [name, v] : max_increase_ratio_override)
+    nonnegative("constraint." + name + ".max_increase_ratio", v);
   for (const auto& [name, v] : max_absolute_increase_override) nonnegative("constraint." + name + ".max_increase", v);
   for (const auto& [name, v] : max_probability_override)
     if (!(v >= 0 && v <= 1))
@@ -120,8 +121,7 @@ CompareOptions read_budget(const std::string& path) {
   try {
     root = toml::parse_file(path);
   } catch (const toml::parse_error& e) {
-    throw InputError(SourceLocation{path, static_cast<int>(e.source().begin.line), ""},
-                     std::string(e.description()));
+    throw InputError(SourceLocation{path, static_cast<int>(e.source().begin.line), ""}, std::string(e.description()));
   }
   CompareOptions o;
   for (auto&& [key, node] : root) {
@@ -191,7 +191,8 @@ CompareReport compare_results(const AnalysisResult& base, const AnalysisResult& 
     row.in_candidate = c != nullptr;
     row.scope = c ? c->scope : b->scope;
     if (b) fill_side(*b, &row.base_path_probability, &row.base_worst_pointwise_probability, &row.base_margin);
-    if (c) fill_side(*c, &row.candidate_path_probability, &row.candidate_worst_pointwise_probability, &row.candidate_margin);
+    if (c)
+      fill_side(*c, &row.candidate_path_probability, &row.candidate_worst_pointwise_probability, &row.candidate_margin);
 
     if (!c) {
       row.regression = true;
@@ -227,9 +228,9 @@ CompareReport compare_results(const AnalysisResult& base, const AnalysisResult& 
 
     if (b && !std::isnan(row.base_probability) && !std::isnan(row.candidate_probability)) {
       row.increase = row.candidate_probability - row.base_probability;
-      row.allowed_increase = std::max(lookup(o.max_absolute_increase_override, name, o.max_absolute_increase),
-                                      lookup(o.max_increase_ratio_override, name, o.max_increase_ratio) *
-                                          row.base_probability);
+      row.allowed_increase =
+          std::max(lookup(o.max_absolute_increase_override, name, o.max_absolute_increase),
+                   lookup(o.max_increase_ratio_override, name, o.max_increase_ratio) * row.base_probability);
       const ProportionTest t =
           use_mc ? one_sided_increase_test(row.base_count, row.base_runs, row.candidate_count, row.candidate_runs)
                  : normal_difference_test(row.base_probability, surrogate_gate_standard_error(*b),
@@ -277,8 +278,8 @@ std::string compare_text(const CompareReport& report) {
         << "\n";
   out << "  one-sided significance " << format_value(report.significance) << "\n\n";
   TextTable table;
-  table.header = {"constraint", "from", "base P", "candidate P", "change", "allowed", "test", "p-value",
-                  "base margin", "cand. margin", "verdict"};
+  table.header = {"constraint", "from",    "base P",      "candidate P",  "change", "allowed",
+                  "test",       "p-value", "base margin", "cand. margin", "verdict"};
   table.right_aligned = {false, false, true, true, true, true, false, true, true, true, false};
   for (const auto& r : report.rows) {
     auto probability_with_count = [](double p, long long k, long long n) {
@@ -322,8 +323,9 @@ std::string compare_junit(const CompareReport& report, const std::string& suite_
     c.failure_message = r.name + ": " + why;
     std::ostringstream detail;
     detail << "base " << report.base_label << ", candidate " << report.candidate_label << "\n"
-           << "probability (" << (r.source.empty() ? "none" : r.source) << "): " << format_probability(r.base_probability)
-           << " -> " << format_probability(r.candidate_probability) << ", bound " << format_probability(r.bound) << "\n"
+           << "probability (" << (r.source.empty() ? "none" : r.source)
+           << "): " << format_probability(r.base_probability) << " -> " << format_probability(r.candidate_probability)
+           << ", bound " << format_probability(r.bound) << "\n"
            << "test " << (r.test.empty() ? kMissingValue : r.test) << ", one-sided p-value "
            << format_probability(r.p_value) << "\n"
            << "margin " << format_value(r.base_margin) << " -> " << format_value(r.candidate_margin) << "\n";

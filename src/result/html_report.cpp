@@ -60,7 +60,8 @@ Plane choose_plane(const AnalysisResult& r, const ReportOptions& o) {
 
 // Covariance of outputs i and j at time k from an orthonormal expansion:
 // Cov = Σ_{α≠0} c_iα c_jα (the constant term carries the mean only).
-bool expansion_covariance(const SurrogateResult& s, std::size_t k, int i, int j, double* cii, double* cjj, double* cij) {
+bool expansion_covariance(const SurrogateResult& s, std::size_t k, int i, int j, double* cii, double* cjj,
+                          double* cij) {
   if (k >= s.coefficients.size()) return false;
   const Eigen::MatrixXd& c = s.coefficients[k];
   if (c.cols() != s.multi_indices.rows() || std::max(i, j) >= c.rows()) return false;
@@ -75,7 +76,8 @@ bool expansion_covariance(const SurrogateResult& s, std::size_t k, int i, int j,
 }
 
 // Polygon of the 3σ ellipse {m + L u : |u| = 3} with L L' = [[a, b], [b, d]].
-void ellipse_points(double mx, double my, double a, double b, double d, std::vector<double>* x, std::vector<double>* y) {
+void ellipse_points(double mx, double my, double a, double b, double d, std::vector<double>* x,
+                    std::vector<double>* y) {
   const double l11 = std::sqrt(std::max(a, 0.0));
   const double l21 = l11 > 0 ? b / l11 : 0.0;
   const double l22 = std::sqrt(std::max(d - l21 * l21, 0.0));
@@ -86,6 +88,11 @@ void ellipse_points(double mx, double my, double a, double b, double d, std::vec
     x->push_back(mx + l11 * u);
     y->push_back(my + l21 * u + l22 * v);
   }
+}
+
+// Time axes span exactly the report times (no padding before t0).
+void time_range(SvgPlot& plot, const AnalysisResult& r) {
+  if (r.time.size() >= 2 && r.time.back() > r.time.front()) plot.x_range(r.time.front(), r.time.back());
 }
 
 std::string paragraph(const std::string& text, const std::string& cls = "") {
@@ -164,10 +171,11 @@ std::string tube_plot(const AnalysisResult& r, const ReportOptions& o) {
       if (c.type == "outside-sphere" && std::size_t(std::max(a, b)) < c.center.size() && std::isfinite(c.radius)) {
         plot.circle(c.center[std::size_t(a)], c.center[std::size_t(b)], c.radius, zs, label);
         ++zone;
-      } else if (c.type == "outside-ellipsoid" && std::size_t(std::max(a, b)) < std::min(c.center.size(), c.semi_axes.size())) {
+      } else if (c.type == "outside-ellipsoid" &&
+                 std::size_t(std::max(a, b)) < std::min(c.center.size(), c.semi_axes.size())) {
         std::vector<double> ex, ey;
-        ellipse_points(c.center[std::size_t(a)], c.center[std::size_t(b)], std::pow(c.semi_axes[std::size_t(a)] / 3, 2), 0,
-                       std::pow(c.semi_axes[std::size_t(b)] / 3, 2), &ex, &ey);
+        ellipse_points(c.center[std::size_t(a)], c.center[std::size_t(b)], std::pow(c.semi_axes[std::size_t(a)] / 3, 2),
+                       0, std::pow(c.semi_axes[std::size_t(b)] / 3, 2), &ex, &ey);
         plot.polygon(ex, ey, zs, label);
         ++zone;
       } else if (c.type == "inside-box" && std::size_t(std::max(a, b)) < std::min(c.low.size(), c.high.size())) {
@@ -185,10 +193,57 @@ std::string tube_plot(const AnalysisResult& r, const ReportOptions& o) {
   return plot.render();
 }
 
+// Deviation from the nominal path vs time for the two plane outputs: the
+// tube's cross-section, readable even when the dispersion is far smaller than
+// the path (where the plane view shows a line).
+std::string deviation_plot(const AnalysisResult& r, const ReportOptions& o) {
+  const Plane p = choose_plane(r, o);
+  const std::size_t T = r.time.size(), n = r.output_names.size();
+  if (p.iy < 0 || T == 0 || !rows_match(r.nominal_outputs, T, n)) return "";
+  const SurrogateResult& s = r.surrogate;
+  const MonteCarloResult& m = r.montecarlo;
+  const bool have_surrogate = s.done && rows_match(s.mean, T, n) && rows_match(s.std, T, n);
+  const bool have_mc = m.done && rows_match(m.mean, T, n) && rows_match(m.std, T, n);
+  if (!have_surrogate && !have_mc) return "";
+  const Eigen::MatrixXd& mean = have_surrogate ? s.mean : m.mean;
+  const Eigen::MatrixXd& sd = have_surrogate ? s.std : m.std;
+  SvgPlot plot("plot-tube-deviation", "Tube cross-section: deviation from the nominal path", 900, 340);
+  plot.x_axis("time [s]");
+  time_range(plot, r);
+  plot.y_axis("output − nominal");
+  std::vector<int> axes;
+  if (p.ix >= 0) axes.push_back(p.ix);
+  axes.push_back(p.iy);
+  const int kept = std::min<int>(o.max_mc_runs, int(m.sample_outputs.size()));
+  for (std::size_t a = 0; a < axes.size(); ++a) {
+    const int j = axes[a];
+    const std::string cc = colour(a);
+    const std::string name = r.output_names[std::size_t(j)];
+    for (int k = 0; k < kept; ++k) {
+      const Eigen::MatrixXd& run = m.sample_outputs[std::size_t(k)];
+      if (!rows_match(run, T, n)) continue;
+      std::vector<double> d(T);
+      for (std::size_t t = 0; t < T; ++t) d[t] = run(Eigen::Index(t), j) - r.nominal_outputs(Eigen::Index(t), j);
+      plot.line(r.time, d, SvgStyle{cc, 0.6, "", "none", 1.0, 0.35}, k == 0 ? name + ": Monte Carlo runs" : "");
+    }
+    std::vector<double> lo(T), hi(T), mid(T);
+    for (std::size_t t = 0; t < T; ++t) {
+      const auto i = Eigen::Index(t);
+      mid[t] = mean(i, j) - r.nominal_outputs(i, j);
+      lo[t] = mid[t] - 3 * sd(i, j);
+      hi[t] = mid[t] + 3 * sd(i, j);
+    }
+    plot.band(r.time, lo, hi, SvgStyle{cc, 0.5, "", cc, 0.22}, name + ": mean ± 3σ");
+    plot.line(r.time, mid, SvgStyle{cc, 1.8, "", "none"}, name + ": mean − nominal");
+  }
+  return plot.render();
+}
+
 std::string probability_plot(const AnalysisResult& r) {
   if (r.constraints.empty() || r.time.empty()) return paragraph("No constraints in this result.", "missing");
   SvgPlot plot("plot-probability", "Violation probability vs time", 900, 380);
   plot.x_axis("time [s]");
+  time_range(plot, r);
   plot.y_axis("probability of violation (log)", true);
   plot.clamp_to_floor(true);
   double lo = 1, hi = 0;
@@ -220,14 +275,15 @@ std::string probability_plot(const AnalysisResult& r) {
   if (hi <= 0) lo = 1e-6, hi = 1e-1;
   // Six decades below the larger of bound and largest probability are enough to
   // see how a rare event builds up; anything smaller sits on the floor.
-  const double floor = std::max(std::pow(10.0, std::floor(std::log10(lo)) - 1),
-                                std::pow(10.0, std::floor(std::log10(hi)) - 6));
+  const double floor =
+      std::max(std::pow(10.0, std::floor(std::log10(lo)) - 1), std::pow(10.0, std::floor(std::log10(hi)) - 6));
   const double top = std::min(1.0, std::pow(10.0, std::ceil(std::log10(hi))));
   plot.y_range(std::max(floor, 1e-15), std::max(top, floor * 100));
   return plot.render() +
-         paragraph("Probabilities that are exactly zero are drawn on the lower edge of the axis. A Monte Carlo "
-                   "estimate cannot resolve probabilities much below 1/runs.",
-                   "caption");
+         paragraph(
+             "Probabilities that are exactly zero are drawn on the lower edge of the axis. A Monte Carlo "
+             "estimate cannot resolve probabilities much below 1/runs.",
+             "caption");
 }
 
 std::string clearance_plots(const AnalysisResult& r) {
@@ -242,6 +298,7 @@ std::string clearance_plots(const AnalysisResult& r) {
     SvgPlot plot("plot-clearance-" + std::to_string(k + 1),
                  c.name + ": clearance (margin " + format_value(c.margin) + ")", 900, 320);
     plot.x_axis("time [s]");
+    time_range(plot, r);
     plot.y_axis("clearance (≥ 0 safe)");
     const std::string cc = colour(k);
     if (std::size_t(c.clearance_std.size()) == T) {
@@ -283,8 +340,9 @@ std::string sobol_plot(const AnalysisResult& r, const ReportOptions& o) {
   std::vector<double> peak(d, 0.0);
   for (std::size_t t = 0; t < T; ++t)
     for (std::size_t j = 0; j < d; ++j)
-      peak[j] = std::max(peak[j], have_total && s.sobol_total[t].cols() == Eigen::Index(d) ? index_at(s.sobol_total, t, j)
-                                                                                         : index_at(s.sobol_first, t, j));
+      peak[j] =
+          std::max(peak[j], have_total && s.sobol_total[t].cols() == Eigen::Index(d) ? index_at(s.sobol_total, t, j)
+                                                                                     : index_at(s.sobol_first, t, j));
   std::vector<std::size_t> order(d);
   std::iota(order.begin(), order.end(), 0);
   std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return peak[a] > peak[b]; });
@@ -294,6 +352,7 @@ std::string sobol_plot(const AnalysisResult& r, const ReportOptions& o) {
   SvgPlot plot("plot-sobol", "Variance shares of " + r.output_names[std::size_t(out)] + " (first-order Sobol indices)",
                900, 380);
   plot.x_axis("time [s]");
+  time_range(plot, r);
   plot.y_axis("share of variance");
   plot.y_range(0, 1);
   std::vector<double> base(T, 0.0), top(T);
@@ -321,9 +380,10 @@ std::string sobol_plot(const AnalysisResult& r, const ReportOptions& o) {
     rest[t] = has_variance ? std::max(0.0, 1.0 - total_first) : 0.0;
   }
   stack(rest, "#eeeeee", "interactions");
-  return plot.render() + paragraph("Stacked first-order indices S_i; the grey remainder 1 − ΣS_i is the share "
-                                   "of variance due to interactions between inputs.",
-                                   "caption");
+  return plot.render() + paragraph(
+                             "Stacked first-order indices S_i; the grey remainder 1 − ΣS_i is the share "
+                             "of variance due to interactions between inputs.",
+                             "caption");
 }
 
 std::string validation_plot(const AnalysisResult& r) {
@@ -355,9 +415,10 @@ std::string validation_plot(const AnalysisResult& r) {
   plot.diagonal(SvgStyle{kNominal, 1.0, "5 3", "none"}, "y = x");
   plot.scatter(sx, sy, SvgStyle{kPalette[0], 0.6, "", kPalette[0], 0.55}, 3.0, "standard deviation");
   if (!mx.empty()) plot.scatter(mx, my, SvgStyle{kPalette[1], 0.6, "", kPalette[1], 0.55}, 3.0, "mean − nominal");
-  return plot.render() + paragraph("Points on the dashed line mean the surrogate reproduces the full-model "
-                                   "statistics; the Monte Carlo values carry their own sampling error.",
-                                   "caption");
+  return plot.render() + paragraph(
+                             "Points on the dashed line mean the surrogate reproduces the full-model "
+                             "statistics; the Monte Carlo values carry their own sampling error.",
+                             "caption");
 }
 
 // ------------------------------------------------------------------ tables
@@ -367,8 +428,10 @@ std::string summary_table(const AnalysisResult& r) {
   std::ostringstream o;
   const int percent = int(std::lround(100 * r.montecarlo.confidence));
   o << "<table class=\"summary\">\n<thead><tr><th>constraint</th><th>type</th><th>scope</th><th>bound</th>"
-    << "<th>surrogate P ± s.e.</th><th>Monte Carlo P [" << percent << "% CI]</th><th>importance sampling P [CI], ESS</th>"
-    << "<th>margin</th><th>worst time [s]</th><th>Gaussian / Cantelli</th><th>agreement</th><th>verdict</th></tr></thead>\n<tbody>\n";
+    << "<th>surrogate P ± s.e.</th><th>Monte Carlo P [" << percent
+    << "% CI]</th><th>importance sampling P [CI], ESS</th>"
+    << "<th>margin</th><th>worst time [s]</th><th>Gaussian / "
+       "Cantelli</th><th>agreement</th><th>verdict</th></tr></thead>\n<tbody>\n";
   for (const auto& c : r.constraints) {
     auto cell = [&](const std::string& text, const std::string& cls = "") {
       o << "<td" << (cls.empty() ? std::string() : " class=\"" + cls + "\"") << ">" << xml_escape(text) << "</td>";
@@ -378,7 +441,8 @@ std::string summary_table(const AnalysisResult& r) {
     cell(c.type.empty() ? kMissingValue : c.type);
     cell(c.scope.empty() ? kMissingValue : c.scope);
     cell(format_probability(c.max_probability), "num");
-    cell(format_probability(surrogate_gate_probability(c)) + " ± " + format_probability(surrogate_gate_standard_error(c), 1),
+    cell(format_probability(surrogate_gate_probability(c)) + " ± " +
+             format_probability(surrogate_gate_standard_error(c), 1),
          "num");
     if (c.has_montecarlo) {
       double ci[2];
@@ -403,8 +467,9 @@ std::string summary_table(const AnalysisResult& r) {
                                : std::to_string(g) + "/" + std::to_string(c.gaussian_ok.size()) + " · " +
                                      std::to_string(ct) + "/" + std::to_string(c.cantelli_ok.size()),
          "num");
-    cell(c.agreement.empty() ? kMissingValue : c.agreement + (c.agreement_cause.empty() ? "" : ": " + c.agreement_cause),
-         c.agreement == "disagree" ? "bad" : "");
+    cell(
+        c.agreement.empty() ? kMissingValue : c.agreement + (c.agreement_cause.empty() ? "" : ": " + c.agreement_cause),
+        c.agreement == "disagree" ? "bad" : "");
     cell(c.within_bound ? "within bound" : "bound exceeded", c.within_bound ? "good" : "bad");
     o << "</tr>\n";
     std::string notes = c.verdict;
@@ -420,11 +485,11 @@ std::string facts_table(const AnalysisResult& r) {
   rows.emplace_back("case", r.case_path.empty() ? kMissingValue : r.case_path);
   rows.emplace_back("case fingerprint (SHA-256)", r.case_sha256.empty() ? kMissingValue : r.case_sha256);
   rows.emplace_back("created (UTC)", r.created_utc.empty() ? kMissingValue : r.created_utc);
-  rows.emplace_back("tool version / seed", (r.tool_version.empty() ? kMissingValue : r.tool_version) + " / " +
-                                               std::to_string(r.seed));
+  rows.emplace_back("tool version / seed",
+                    (r.tool_version.empty() ? kMissingValue : r.tool_version) + " / " + std::to_string(r.seed));
   if (!r.time.empty())
-    rows.emplace_back("report times", std::to_string(r.time.size()) + " from " + format_value(r.time.front()) + " s to " +
-                                          format_value(r.time.back()) + " s");
+    rows.emplace_back("report times", std::to_string(r.time.size()) + " from " + format_value(r.time.front()) +
+                                          " s to " + format_value(r.time.back()) + " s");
   const SurrogateResult& s = r.surrogate;
   if (s.done) {
     rows.emplace_back("surrogate", s.method + ", degree " + std::to_string(s.degree_reached) + ", level " +
@@ -435,11 +500,13 @@ std::string facts_table(const AnalysisResult& r) {
     Eigen::Index i = -1;
     double worst = kNaN;
     for (Eigen::Index k = 0; k < s.error_estimate.size(); ++k)
-      if (std::isfinite(s.error_estimate[k]) && (i < 0 || s.error_estimate[k] > worst)) i = k, worst = s.error_estimate[k];
-    rows.emplace_back("error estimate (worst output)",
-                      format_probability(worst) +
-                          (i >= 0 && std::size_t(i) < r.output_names.size() ? " (" + r.output_names[std::size_t(i)] + ")" : "") +
-                          (s.tolerance_met ? "" : " — tolerance NOT met"));
+      if (std::isfinite(s.error_estimate[k]) && (i < 0 || s.error_estimate[k] > worst))
+        i = k, worst = s.error_estimate[k];
+    rows.emplace_back(
+        "error estimate (worst output)",
+        format_probability(worst) +
+            (i >= 0 && std::size_t(i) < r.output_names.size() ? " (" + r.output_names[std::size_t(i)] + ")" : "") +
+            (s.tolerance_met ? "" : " — tolerance NOT met"));
     for (const auto& line : s.karhunen_loeve) rows.emplace_back("Karhunen–Loève", line);
   } else {
     rows.emplace_back("surrogate", "none (nominal run only)");
@@ -454,7 +521,8 @@ std::string facts_table(const AnalysisResult& r) {
   }
   std::ostringstream o;
   o << "<table class=\"facts\">\n<tbody>\n";
-  for (const auto& [k, v] : rows) o << "<tr><th>" << xml_escape(k) << "</th><td>" << xml_escape(v) << "</td></tr>\n";
+  for (const auto& [k, v] : rows)
+    o << "<tr><th>" << xml_escape(k) << "</th><td class=\"lines\">" << xml_escape(v) << "</td></tr>\n";
   o << "</tbody>\n</table>\n";
   return o.str();
 }
@@ -479,6 +547,7 @@ td.good { color: #23753f; font-weight: bold; }
 td.bad { color: #b02a1a; font-weight: bold; }
 tr.note td { color: #4a5866; font-size: 12px; border-top: none; }
 .cautions { background: #fff7e0; border: 1px solid #e6c36a; padding: 10px 14px; border-radius: 4px; }
+td.lines { white-space: pre-line; }
 .caption { font-size: 12px; color: #4a5866; margin-top: 2px; }
 .missing { color: #6a7682; font-style: italic; }
 svg.plot { display: block; margin: 8px 0; border: 1px solid #e1e5ea; }
@@ -504,30 +573,39 @@ std::string html_report(const AnalysisResult& r, const ReportOptions& options) {
   const int code = r.verdict_exit_code();
   std::ostringstream o;
   o << "<!DOCTYPE html>\n<html xmlns=\"http://www.w3.org/1999/xhtml\" lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n"
-    << "<title>" << xml_escape("sigmatube report: " + title) << "</title>\n<style>" << kStyle << "</style>\n</head>\n<body>\n<main>\n";
+    << "<title>" << xml_escape("sigmatube report: " + title) << "</title>\n<style>" << kStyle
+    << "</style>\n</head>\n<body>\n<main>\n";
   o << "<h1>" << xml_escape(title) << "</h1>\n";
-  o << paragraph("Uncertainty analysis of a closed-loop trajectory (" + (r.command.empty() ? std::string("run") : r.command) +
-                 ").", "caption");
-  o << "<div class=\"verdict " << (code == 0 ? "ok" : code == 3 ? "untrusted" : "fail") << "\">" << xml_escape(exit_verdict_line(r))
-    << "</div>\n";
+  o << paragraph("Uncertainty analysis of a closed-loop trajectory (" +
+                     (r.command.empty() ? std::string("run") : r.command) + ").",
+                 "caption");
+  o << "<div class=\"verdict "
+    << (code == 0   ? "ok"
+        : code == 3 ? "untrusted"
+                    : "fail")
+    << "\">" << xml_escape(exit_verdict_line(r)) << "</div>\n";
   o << "<h2>Summary</h2>\n" << facts_table(r) << summary_table(r);
   o << "<div class=\"cautions\"><strong>Read before use.</strong> " << xml_escape(cautions_text()) << "</div>\n";
   o << "<h2>Dispersion tube</h2>\n"
-    << paragraph("Nominal path, surrogate mean and the 3σ covariance ellipse at each report time (their union is the "
-                 "tube; for a Gaussian position each ellipse holds about 98.9% of the probability). Keep-out zones "
-                 "are drawn when their position outputs are the two axes; spheres appear as their projected circle.",
-                 "caption")
-    << tube_plot(r, options);
+    << paragraph(
+           "Nominal path, surrogate mean and the 3σ covariance ellipse at each report time (their union is the "
+           "tube; for a Gaussian position each ellipse holds about 98.9% of the probability). Keep-out zones "
+           "are drawn when their position outputs are the two axes; spheres appear as their projected circle.",
+           "caption")
+    << tube_plot(r, options) << deviation_plot(r, options);
   o << "<h2>Violation probability</h2>\n" << probability_plot(r);
   o << "<h2>Clearance and margin</h2>\n"
-    << paragraph("Clearance c(t) ≥ 0 is safe. The dashed line is the ε-quantile of the clearance at the constraint's "
-                 "bound; the margin is the ε-quantile of the path-minimum clearance.",
-                 "caption")
+    << paragraph(
+           "Clearance c(t) ≥ 0 is safe. The dashed line is the ε-quantile of the clearance at the constraint's "
+           "bound; the margin is the ε-quantile of the path-minimum clearance.",
+           "caption")
     << clearance_plots(r);
   o << "<h2>Sensitivity</h2>\n" << sobol_plot(r, options);
   o << "<h2>Surrogate versus Monte Carlo</h2>\n" << validation_plot(r);
-  o << "<footer>" << xml_escape("Written by sigmatube " + r.tool_version + ". Self-contained page: no scripts, no network "
-                                "access.")
+  o << "<footer>"
+    << xml_escape("Written by sigmatube " + r.tool_version +
+                  ". Self-contained page: no scripts, no network "
+                  "access.")
     << "</footer>\n";
   o << "</main>\n</body>\n</html>\n";
   return o.str();

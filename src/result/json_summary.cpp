@@ -14,8 +14,8 @@ std::string pair(const double v[2]) { return "[" + json_number(v[0]) + ", " + js
 std::string per_output(const AnalysisResult& r, const Eigen::VectorXd& v) {
   std::string out = "{";
   for (Eigen::Index i = 0; i < v.size(); ++i) {
-    const std::string name = std::size_t(i) < r.output_names.size() ? r.output_names[std::size_t(i)]
-                                                                    : "#" + std::to_string(i);
+    const std::string name =
+        std::size_t(i) < r.output_names.size() ? r.output_names[std::size_t(i)] : "#" + std::to_string(i);
     out += (i ? ", " : "") + json_string(name) + ": " + json_number(v[i]);
   }
   return out + "}";

@@ -74,8 +74,9 @@ ProportionTest normal_difference_test(double pb, double seb, double pc, double s
   if (scale > 0)
     t.z = difference / scale;
   else
-    t.z = difference > 0 ? std::numeric_limits<double>::infinity()
-                         : difference < 0 ? -std::numeric_limits<double>::infinity() : 0.0;
+    t.z = difference > 0   ? std::numeric_limits<double>::infinity()
+          : difference < 0 ? -std::numeric_limits<double>::infinity()
+                           : 0.0;
   t.p_value = normal_upper_tail(t.z);
   return t;
 }

@@ -43,6 +43,16 @@ std::string wrap(const std::string& text, std::size_t width, const std::string& 
   return out;
 }
 
+// Indents every line after the first (multi-line causes under a label).
+std::string indent_lines(const std::string& text, const std::string& indent) {
+  std::string out;
+  for (char ch : text) {
+    out += ch;
+    if (ch == '\n') out += indent;
+  }
+  return out;
+}
+
 bool in_window(const ConstraintResult& c, double t) {
   const bool lo = std::isnan(c.window[0]) || t >= c.window[0];
   const bool hi = std::isnan(c.window[1]) || t <= c.window[1];
@@ -83,8 +93,8 @@ std::string worst_output(const AnalysisResult& r, const Eigen::VectorXd& v, doub
   return std::size_t(i) < r.output_names.size() ? r.output_names[std::size_t(i)] : "#" + std::to_string(i);
 }
 
-void flag_counts(const ConstraintResult& c, const std::vector<double>& time,
-                 const std::vector<std::uint8_t>& flags, int* ok, int* total) {
+void flag_counts(const ConstraintResult& c, const std::vector<double>& time, const std::vector<std::uint8_t>& flags,
+                 int* ok, int* total) {
   *ok = *total = 0;
   for (std::size_t k = 0; k < flags.size() && k < time.size(); ++k) {
     if (!in_window(c, time[k])) continue;
@@ -190,15 +200,15 @@ std::string summary_text(const AnalysisResult& r, bool color) {
     out << "\nSurrogate\n";
     out << "  method       " << (s.method.empty() ? kMissingValue : s.method) << ", degree " << s.degree_reached
         << ", level " << s.level_reached << "\n";
-    out << "  germ         dimension " << s.germ_names.size();
+    std::string germ = "dimension " + std::to_string(s.germ_names.size());
     if (!s.germ_names.empty()) {
-      out << " (";
+      germ += " (";
       for (std::size_t i = 0; i < s.germ_names.size(); ++i)
-        out << (i ? ", " : "") << s.germ_names[i]
-            << (i < s.germ_families.size() ? " " + s.germ_families[i] : std::string());
-      out << ")";
+        germ +=
+            (i ? ", " : "") + s.germ_names[i] + (i < s.germ_families.size() ? " " + s.germ_families[i] : std::string());
+      germ += ")";
     }
-    out << "\n";
+    out << wrap(germ, 78, "  germ         ");
     out << "  basis size   " << s.multi_indices.rows() << " polynomials\n";
     out << "  model runs   " << s.model_runs << "\n";
     if (s.samples > 0) out << "  samples      " << s.samples << " surrogate samples for probabilities\n";
@@ -206,9 +216,10 @@ std::string summary_text(const AnalysisResult& r, bool color) {
     const std::string name = worst_output(r, s.error_estimate, &worst);
     out << "  error        estimate " << format_probability(worst) << " (worst output: " << name << ")\n";
     if (!s.tolerance_met)
-      out << paint("  WARNING: the surrogate did not reach its error tolerance; trust its numbers only as far "
-                   "as the Monte Carlo cross-check confirms them.",
-                   kYellow, color)
+      out << paint(
+                 "  WARNING: the surrogate did not reach its error tolerance; trust its numbers only as far "
+                 "as the Monte Carlo cross-check confirms them.",
+                 kYellow, color)
           << "\n";
     for (const auto& line : s.karhunen_loeve) out << "  Karhunen-Loeve  " << line << "\n";
     for (const auto& note : s.notes) out << "  note         " << note << "\n";
@@ -229,15 +240,15 @@ std::string summary_text(const AnalysisResult& r, bool color) {
     for (const auto& c : r.constraints) {
       const double p = surrogate_gate_probability(c);
       const double se = surrogate_gate_standard_error(c);
-      std::vector<std::string> row = {c.name, c.scope.empty() ? kMissingValue : c.scope,
-                                      format_probability(c.max_probability),
-                                      format_probability(p) + " +/- " + format_probability(se, 1),
-                                      montecarlo_cell(r, c)};
+      std::vector<std::string> row = {
+          c.name, c.scope.empty() ? kMissingValue : c.scope, format_probability(c.max_probability),
+          format_probability(p) + " +/- " + format_probability(se, 1), montecarlo_cell(r, c)};
       if (any_is) {
         const auto& is = c.importance_sampling;
-        row.push_back(is.done ? format_probability(is.probability) + " " + interval_text(is.interval[0], is.interval[1]) +
-                                    " " + format_value(is.effective_sample_size, 3)
-                              : std::string(kMissingValue));
+        row.push_back(is.done
+                          ? format_probability(is.probability) + " " + interval_text(is.interval[0], is.interval[1]) +
+                                " " + format_value(is.effective_sample_size, 3)
+                          : std::string(kMissingValue));
       }
       row.push_back(format_value(c.margin, 4));
       row.push_back(c.within_bound ? "within" : "EXCEEDED");
@@ -264,7 +275,7 @@ std::string summary_text(const AnalysisResult& r, bool color) {
     out << "\nDetails\n";
     for (const auto& c : r.constraints) {
       out << "  " << c.name << " (" << (c.type.empty() ? kMissingValue : c.type) << ")";
-      if (!std::isnan(c.window[0]) || !std::isnan(c.window[1]))
+      if (std::isfinite(c.window[0]) && std::isfinite(c.window[1]))
         out << ", window " << format_value(c.window[0]) << " to " << format_value(c.window[1]) << " s";
       out << "\n";
       if (!c.verdict.empty()) out << wrap(c.verdict, 78, "    ");
@@ -287,8 +298,8 @@ std::string summary_text(const AnalysisResult& r, bool color) {
             << (c.agreement_cause.empty() ? std::string() : " (" + c.agreement_cause + ")") << "\n";
       if (c.importance_sampling.done) {
         const auto& is = c.importance_sampling;
-        out << "    importance sampling: " << is.runs << " runs, P " << format_probability(is.probability)
-            << " +/- " << format_probability(is.standard_error, 1) << ", ESS " << format_value(is.effective_sample_size, 4)
+        out << "    importance sampling: " << is.runs << " runs, P " << format_probability(is.probability) << " +/- "
+            << format_probability(is.standard_error, 1) << ", ESS " << format_value(is.effective_sample_size, 4)
             << ", design point distance (beta) " << format_value(is.design_point_distance, 4) << "\n";
       }
     }
@@ -313,8 +324,13 @@ std::string summary_text(const AnalysisResult& r, bool color) {
           << interval_text(m.joint_path_interval[0], m.joint_path_interval[1]) << " (any constraint violated)\n";
     const std::string agreement = m.agreement.empty() ? std::string(kMissingValue) : m.agreement;
     out << "  agreement    "
-        << paint(agreement, m.agreement == "disagree" ? kRed : m.agreement == "agree" ? kGreen : kReset, color)
-        << (m.agreement_cause.empty() ? std::string() : ": " + m.agreement_cause) << "\n";
+        << paint(agreement,
+                 m.agreement == "disagree" ? kRed
+                 : m.agreement == "agree"  ? kGreen
+                                           : kReset,
+                 color)
+        << (m.agreement_cause.empty() ? std::string() : ": " + indent_lines(m.agreement_cause, "               "))
+        << "\n";
   } else if (s.done) {
     out << "\n"
         << paint("No Monte Carlo cross-check was run: the surrogate numbers above are unconfirmed.", kYellow, color)

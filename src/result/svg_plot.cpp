@@ -14,7 +14,7 @@
 namespace sigmatube::result {
 namespace {
 
-constexpr double kLeftPx = 78, kTopPx = 34, kBottomPx = 52, kLegendPx = 200;
+constexpr double kLeftPx = 78, kTopPx = 34, kBottomPx = 52, kLegendPx = 230;
 
 std::string px(double v) {
   char buffer[32];
@@ -119,8 +119,10 @@ std::string SvgPlot::render() const {
     double lo = std::numeric_limits<double>::infinity(), hi = -lo;
     for (const auto& item : items_) {
       std::vector<const std::vector<double>*> sources;
-      if (for_x) sources = {&item.x};
-      else sources = {&item.y, &item.y2};
+      if (for_x)
+        sources = {&item.x};
+      else
+        sources = {&item.y, &item.y2};
       for (const auto* v : sources)
         for (double d : *v)
           if (usable(d, axis.log)) lo = std::min(lo, d), hi = std::max(hi, d);
@@ -157,7 +159,8 @@ std::string SvgPlot::render() const {
     }
   }
   auto to_unit = [](const Axis& a, double v) {
-    return a.log ? (std::log10(v) - std::log10(a.lo)) / (std::log10(a.hi) - std::log10(a.lo)) : (v - a.lo) / (a.hi - a.lo);
+    return a.log ? (std::log10(v) - std::log10(a.lo)) / (std::log10(a.hi) - std::log10(a.lo))
+                 : (v - a.lo) / (a.hi - a.lo);
   };
   auto X = [&](double v) { return kLeftPx + to_unit(xa, v) * plot_w; };
   // NaN when the value cannot be drawn (NaN, or ≤ 0 on a log axis without clamping).
@@ -182,8 +185,9 @@ std::string SvgPlot::render() const {
   o << "<defs><clipPath id=\"" << clip << "\"><rect x=\"" << px(kLeftPx) << "\" y=\"" << px(kTopPx) << "\" width=\""
     << px(plot_w) << "\" height=\"" << px(plot_h) << "\"/></clipPath></defs>\n";
   o << "<rect x=\"0\" y=\"0\" width=\"" << width_ << "\" height=\"" << height_ << "\" fill=\"#ffffff\"/>\n";
-  o << "<text x=\"" << px(kLeftPx) << "\" y=\"20\" class=\"plot-title\" font-size=\"14\" font-weight=\"bold\" fill=\"#1b2430\">"
-    << xml_escape(title_) << "</text>\n";
+  o << "<text x=\"" << px(kLeftPx)
+    << "\" y=\"20\" class=\"plot-title\" font-size=\"14\" font-weight=\"bold\" fill=\"#1b2430\">" << xml_escape(title_)
+    << "</text>\n";
   o << "<rect x=\"" << px(kLeftPx) << "\" y=\"" << px(kTopPx) << "\" width=\"" << px(plot_w) << "\" height=\""
     << px(plot_h) << "\" fill=\"#f7f8fa\" stroke=\"#9aa3ad\" stroke-width=\"1\"/>\n";
 
@@ -209,8 +213,8 @@ std::string SvgPlot::render() const {
   for (double t : yt) {
     const double y = kTopPx + (1 - to_unit(ya, t)) * plot_h;
     if (y < kTopPx - 0.5 || y > kTopPx + plot_h + 0.5) continue;
-    o << "<line x1=\"" << px(kLeftPx) << "\" y1=\"" << px(y) << "\" x2=\"" << px(kLeftPx + plot_w) << "\" y2=\"" << px(y)
-      << "\"/>\n";
+    o << "<line x1=\"" << px(kLeftPx) << "\" y1=\"" << px(y) << "\" x2=\"" << px(kLeftPx + plot_w) << "\" y2=\""
+      << px(y) << "\"/>\n";
   }
   o << "</g>\n<g class=\"ticks\" font-size=\"11\" fill=\"#3a4450\">\n";
   for (double t : xt) {
@@ -229,7 +233,8 @@ std::string SvgPlot::render() const {
   o << "<text x=\"" << px(kLeftPx + plot_w / 2) << "\" y=\"" << px(height_ - 12)
     << "\" text-anchor=\"middle\" font-size=\"12\" fill=\"#1b2430\">" << xml_escape(x_.label) << "</text>\n";
   o << "<text transform=\"translate(16," << px(kTopPx + plot_h / 2)
-    << ") rotate(-90)\" text-anchor=\"middle\" font-size=\"12\" fill=\"#1b2430\">" << xml_escape(y_.label) << "</text>\n";
+    << ") rotate(-90)\" text-anchor=\"middle\" font-size=\"12\" fill=\"#1b2430\">" << xml_escape(y_.label)
+    << "</text>\n";
 
   // ---- data
   o << "<g clip-path=\"url(#" << clip << ")\">\n";
@@ -248,7 +253,8 @@ std::string SvgPlot::render() const {
           d += (pen ? "L" : "M") + px(x) + " " + px(y) + " ";
           pen = true;
         }
-        if (!d.empty()) o << "<path d=\"" << d << "\"" << style_attributes(s, false) << " stroke-linejoin=\"round\"/>\n";
+        if (!d.empty())
+          o << "<path d=\"" << d << "\"" << style_attributes(s, false) << " stroke-linejoin=\"round\"/>\n";
         break;
       }
       case Kind::kBand: {
@@ -267,7 +273,8 @@ std::string SvgPlot::render() const {
           std::string d;
           for (std::size_t k = 0; k < run.size(); ++k)
             d += (k ? "L" : "M") + px(X(item.x[run[k]])) + " " + px(Y(item.y2[run[k]])) + " ";
-          for (std::size_t k = run.size(); k-- > 0;) d += "L" + px(X(item.x[run[k]])) + " " + px(Y(item.y[run[k]])) + " ";
+          for (std::size_t k = run.size(); k-- > 0;)
+            d += "L" + px(X(item.x[run[k]])) + " " + px(Y(item.y[run[k]])) + " ";
           o << "<path d=\"" << d << "Z\"" << style_attributes(s, true) << "/>\n";
         }
         break;
@@ -295,11 +302,11 @@ std::string SvgPlot::render() const {
         const double rx = std::fabs(X(item.x[2]) - cx), ry = std::fabs(Y(item.y[2]) - cy);
         if (std::isnan(cx) || std::isnan(cy)) break;
         if (std::fabs(rx - ry) < 0.05)
-          o << "<circle cx=\"" << px(cx) << "\" cy=\"" << px(cy) << "\" r=\"" << px(rx) << "\"" << style_attributes(s, true)
-            << "/>\n";
-        else
-          o << "<ellipse cx=\"" << px(cx) << "\" cy=\"" << px(cy) << "\" rx=\"" << px(rx) << "\" ry=\"" << px(ry) << "\""
+          o << "<circle cx=\"" << px(cx) << "\" cy=\"" << px(cy) << "\" r=\"" << px(rx) << "\""
             << style_attributes(s, true) << "/>\n";
+        else
+          o << "<ellipse cx=\"" << px(cx) << "\" cy=\"" << px(cy) << "\" rx=\"" << px(rx) << "\" ry=\"" << px(ry)
+            << "\"" << style_attributes(s, true) << "/>\n";
         break;
       }
       case Kind::kHline: {
@@ -335,18 +342,18 @@ std::string SvgPlot::render() const {
           << style_attributes(s, true) << "/>\n";
         break;
       case Kind::kScatter:
-        o << "<circle cx=\"" << px(lx + 11) << "\" cy=\"" << px(ly - 1) << "\" r=\"" << px(std::max(item.r, 2.5)) << "\""
-          << style_attributes(s, true) << "/>\n";
+        o << "<circle cx=\"" << px(lx + 11) << "\" cy=\"" << px(ly - 1) << "\" r=\"" << px(std::max(item.r, 2.5))
+          << "\"" << style_attributes(s, true) << "/>\n";
         break;
       default:
         o << "<path d=\"M" << px(lx) << " " << px(ly - 1) << " L" << px(lx + 22) << " " << px(ly - 1) << "\""
           << style_attributes(s, false) << "/>\n";
     }
     std::string text = item.legend;
-    if (display_width(text) > 28) {
+    if (display_width(text) > 33) {
       // Cut on a character boundary.
       std::size_t cut = 0, count = 0;
-      while (cut < text.size() && count < 27) {
+      while (cut < text.size() && count < 32) {
         ++cut;
         while (cut < text.size() && (static_cast<unsigned char>(text[cut]) & 0xC0) == 0x80) ++cut;
         ++count;

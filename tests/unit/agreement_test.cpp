@@ -88,5 +88,23 @@ TEST(Agreement, LargeValidationErrorAloneMakesTheOverallVerdictDisagree) {
   EXPECT_NE(a.summary.find("degree too low"), std::string::npos) << a.summary;
 }
 
+TEST(Agreement, PointwiseScopeComparesAtTheTimeWithMostMonteCarloViolations) {
+  auto s = make(0.01, 100, 10000, 0.05, 0.01);
+  for (auto* c : {&s.surrogate.constraints[0], &s.mc.violations.constraints[0]}) {
+    c->scope = casefile::ConstraintScope::pointwise;
+    c->in_window = {1, 1, 0};
+  }
+  // Surrogate: 0.5% at t0, 1% at t1, 40% outside the window (ignored).
+  s.surrogate.constraints[0].pointwise_probability = Eigen::Vector3d(0.005, 0.01, 0.4);
+  s.surrogate.constraints[0].pointwise_standard_error = Eigen::Vector3d(7e-5, 1e-4, 5e-4);
+  s.mc.violations.constraints[0].pointwise_violations = {40, 100, 4000};
+  const auto a = assess_agreement(s.surrogate, s.mc, 0.0);
+  EXPECT_EQ(a.constraints[0].time_index, 1);
+  EXPECT_EQ(a.constraints[0].montecarlo_violations, 100);
+  EXPECT_EQ(a.constraints[0].verdict, Verdict::agree);
+  s.surrogate.constraints[0].pointwise_probability[1] = 0.02;  // outside [0.0081, 0.0122] + 2 se
+  EXPECT_EQ(assess_agreement(s.surrogate, s.mc, 0.0).constraints[0].verdict, Verdict::disagree);
+}
+
 }  // namespace
 }  // namespace sigmatube::montecarlo

@@ -84,7 +84,9 @@ TEST(Compare, RiseFrom5To7Of20000IsWithinNoise) {
 
 TEST(ProportionTest, PooledZMatchesSciPyNormalTail) {
   TemporaryFolder folder;
-  struct Case { long long xb, nb, xc, nc; };
+  struct Case {
+    long long xb, nb, xc, nc;
+  };
   for (const Case c : {Case{5, 20000, 60, 20000}, Case{5, 20000, 7, 20000}, Case{40, 10000, 25, 12000},
                        Case{130, 20000, 170, 15000}}) {
     const ProportionTest t = pooled_z_test(c.xb, c.nb, c.xc, c.nc);
@@ -92,8 +94,10 @@ TEST(ProportionTest, PooledZMatchesSciPyNormalTail) {
     const std::string out = run_python(
         "from scipy.stats import norm\n"
         "import math\n"
-        "xb, nb, xc, nc = " + std::to_string(c.xb) + ", " + std::to_string(c.nb) + ", " + std::to_string(c.xc) + ", " +
-            std::to_string(c.nc) + "\n"
+        "xb, nb, xc, nc = " +
+            std::to_string(c.xb) + ", " + std::to_string(c.nb) + ", " + std::to_string(c.xc) + ", " +
+            std::to_string(c.nc) +
+            "\n"
             "p = (xb + xc) / (nb + nc)\n"
             "z = (xc / nc - xb / nb) / math.sqrt(p * (1 - p) * (1 / nb + 1 / nc))\n"
             "print(repr(z), repr(norm.sf(z)))\n",
@@ -109,15 +113,19 @@ TEST(ProportionTest, PooledZMatchesSciPyNormalTail) {
 
 TEST(ProportionTest, FisherExactMatchesSciPyFisherExactGreater) {
   TemporaryFolder folder;
-  struct Case { long long xb, nb, xc, nc; };
+  struct Case {
+    long long xb, nb, xc, nc;
+  };
   for (const Case c : {Case{0, 1000, 3, 1000}, Case{1, 5000, 6, 5000}, Case{2, 200, 2, 300}, Case{0, 100, 0, 100},
                        Case{4, 20000, 1, 20000}}) {
     const ProportionTest t = fisher_exact_greater(c.xb, c.nb, c.xc, c.nc);
     // Reference: scipy.stats.fisher_exact([[x_c, n_c − x_c], [x_b, n_b − x_b]], alternative="greater").
     const std::string out = run_python(
         "from scipy.stats import fisher_exact\n"
-        "xb, nb, xc, nc = " + std::to_string(c.xb) + ", " + std::to_string(c.nb) + ", " + std::to_string(c.xc) + ", " +
-            std::to_string(c.nc) + "\n"
+        "xb, nb, xc, nc = " +
+            std::to_string(c.xb) + ", " + std::to_string(c.nb) + ", " + std::to_string(c.xc) + ", " +
+            std::to_string(c.nc) +
+            "\n"
             "print(repr(fisher_exact([[xc, nc - xc], [xb, nb - xb]], alternative='greater')[1]))\n",
         folder.path);
     const double p = std::stod(out);
@@ -136,10 +144,10 @@ TEST(ProportionTest, NormalDifferenceMatchesSciPy) {
   TemporaryFolder folder;
   const ProportionTest t = normal_difference_test(2.0e-3, 1.4e-4, 2.5e-3, 1.6e-4);
   // Reference: scipy.stats.norm.sf((pc − pb)/hypot(se_b, se_c)).
-  const double p = std::stod(run_python(
-      "from scipy.stats import norm\nimport math\n"
-      "print(repr(norm.sf((2.5e-3 - 2.0e-3) / math.hypot(1.4e-4, 1.6e-4))))\n",
-      folder.path));
+  const double p =
+      std::stod(run_python("from scipy.stats import norm\nimport math\n"
+                           "print(repr(norm.sf((2.5e-3 - 2.0e-3) / math.hypot(1.4e-4, 1.6e-4))))\n",
+                           folder.path));
   EXPECT_NEAR(t.p_value, p, kPValueTolerance);
 }
 
@@ -206,11 +214,13 @@ TEST(CompareJUnit, ParsesAndHasOneFailurePerRegressedConstraint) {
   // Reference parser: Python's xml.etree.ElementTree.
   const std::string out = run_python(
       "import xml.etree.ElementTree as ET\n"
-      "root = ET.parse('" + (folder.path / "junit.xml").string() + "').getroot()\n"
-      "cases = root.findall('.//testcase')\n"
-      "failed = [c.get('name') for c in cases if c.find('failure') is not None]\n"
-      "suite = root.find('testsuite')\n"
-      "print(len(cases), ','.join(failed), suite.get('failures'), suite.get('name'), cases[0].get('classname'))\n",
+      "root = ET.parse('" +
+          (folder.path / "junit.xml").string() +
+          "').getroot()\n"
+          "cases = root.findall('.//testcase')\n"
+          "failed = [c.get('name') for c in cases if c.find('failure') is not None]\n"
+          "suite = root.find('testsuite')\n"
+          "print(len(cases), ','.join(failed), suite.get('failures'), suite.get('name'), cases[0].get('classname'))\n",
       folder.path);
   EXPECT_EQ(out, "2 keep-out,corridor 2 release-gate & co cand <&> \"quoted\"\n");
 }
@@ -223,9 +233,11 @@ TEST(CompareJson, ParsesWithPythonAndWritesNaNAsNull) {
   std::ofstream(folder.path / "c.json") << compare_json(report);
   const std::string out = run_python(
       "import json\n"
-      "d = json.load(open('" + (folder.path / "c.json").string() + "'))\n"
-      "k = d['constraints'][0]\n"
-      "print(d['regression'], d['exit_code'], k['name'], k['base_margin'] is None, k['candidate_count'])\n",
+      "d = json.load(open('" +
+          (folder.path / "c.json").string() +
+          "'))\n"
+          "k = d['constraints'][0]\n"
+          "print(d['regression'], d['exit_code'], k['name'], k['base_margin'] is None, k['candidate_count'])\n",
       folder.path);
   EXPECT_EQ(out, "True 1 keep-out True 60\n");
 }

@@ -5,6 +5,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <cstdio>
 #include <thread>
 
 #include "sigmatube/core/error.h"
@@ -170,6 +171,29 @@ TEST(Constraint, ExpressionIsSafeFromSeveralThreads) {
   EXPECT_TRUE(ok2);
 }
 
+TEST(Constraint, ConstantExpressionFillsEveryRow) {
+  ConstraintOptions o;
+  o.name = "const";
+  o.type = ConstraintKind::expression;
+  o.clearance = "2.5";
+  const Constraint c(o, kOutputs);
+  const auto v = clearance_of(c, block_of({{1}, {2}, {3}}));
+  EXPECT_EQ(v, Eigen::VectorXd::Constant(3, 2.5));
+}
+
+TEST(Constraint, DottedNameInExpressionPointsToTheAlias) {
+  ConstraintOptions o;
+  o.name = "expr";
+  o.type = ConstraintKind::expression;
+  o.clearance = "0.03 - cmd.ax";
+  try {
+    Constraint c(o, kOutputs);
+    FAIL() << "expected InputError";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("cmd_ax"), std::string::npos) << e.what();
+  }
+}
+
 TEST(Constraint, ExpressionSyntaxErrorNamesThePosition) {
   ConstraintOptions o;
   o.name = "expr";
@@ -181,7 +205,8 @@ TEST(Constraint, ExpressionSyntaxErrorNamesThePosition) {
     FAIL() << "expected InputError";
   } catch (const InputError& e) {
     EXPECT_EQ(e.where().line, 40);
-    EXPECT_NE(std::string(e.what()).find("position"), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find("position 4"), std::string::npos) << e.what();  // the '*', counted from 0
+    std::printf("%s\n", e.what());
     EXPECT_NE(std::string(e.what()).find("clearance"), std::string::npos) << e.what();
   }
 }

@@ -9,8 +9,8 @@
 #include "result_fixture.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/result/result_file.h"
-#include "sigmatube/result/svg_plot.h"
 #include "sigmatube/result/summary_text.h"
+#include "sigmatube/result/svg_plot.h"
 
 namespace sigmatube::result {
 namespace {
@@ -26,21 +26,23 @@ std::string inspect_report(const std::string& html, const TemporaryFolder& folde
   std::ofstream(folder.path / "report.html") << html;
   return run_python(
       "import xml.etree.ElementTree as ET\n"
-      "root = ET.parse('" + (folder.path / "report.html").string() + "').getroot()\n"
-      "X = '{http://www.w3.org/1999/xhtml}'\n"
-      "S = '{http://www.w3.org/2000/svg}'\n"
-      "assert root.tag == X + 'html', root.tag\n"
-      "for svg in root.iter(S + 'svg'):\n"
-      "    n = 0\n"
-      "    for e in svg.iter():\n"
-      "        if e.tag == S + 'path' and e.get('d', '').strip(): n += 1\n"
-      "        if e.tag == S + 'polyline' and e.get('points', '').strip(): n += 1\n"
-      "        if e.tag == S + 'circle' and float(e.get('r', '0')) > 0: n += 1\n"
-      "        if e.tag == S + 'ellipse' and float(e.get('rx', '0')) > 0: n += 1\n"
-      "    circles = sum(1 for e in svg.iter(S + 'circle'))\n"
-      "    print(svg.get('id'), n, circles)\n"
-      "print('tables', sum(1 for _ in root.iter(X + 'table')))\n"
-      "print('title', root.find(X + 'head').find(X + 'title').text)\n",
+      "root = ET.parse('" +
+          (folder.path / "report.html").string() +
+          "').getroot()\n"
+          "X = '{http://www.w3.org/1999/xhtml}'\n"
+          "S = '{http://www.w3.org/2000/svg}'\n"
+          "assert root.tag == X + 'html', root.tag\n"
+          "for svg in root.iter(S + 'svg'):\n"
+          "    n = 0\n"
+          "    for e in svg.iter():\n"
+          "        if e.tag == S + 'path' and e.get('d', '').strip(): n += 1\n"
+          "        if e.tag == S + 'polyline' and e.get('points', '').strip(): n += 1\n"
+          "        if e.tag == S + 'circle' and float(e.get('r', '0')) > 0: n += 1\n"
+          "        if e.tag == S + 'ellipse' and float(e.get('rx', '0')) > 0: n += 1\n"
+          "    circles = sum(1 for e in svg.iter(S + 'circle'))\n"
+          "    print(svg.get('id'), n, circles)\n"
+          "print('tables', sum(1 for _ in root.iter(X + 'table')))\n"
+          "print('title', root.find(X + 'head').find(X + 'title').text)\n",
       folder.path);
 }
 
@@ -62,8 +64,8 @@ TEST(HtmlReport, IsWellFormedXhtmlWithEveryPlotDrawn) {
   const std::string html = html_report(r, ReportOptions{});
   const std::string inspection = inspect_report(html, folder);
   const auto plots = drawn_per_plot(inspection);
-  for (const char* id : {"plot-tube", "plot-probability", "plot-clearance-1", "plot-clearance-2", "plot-sobol",
-                         "plot-validation"}) {
+  for (const char* id : {"plot-tube", "plot-tube-deviation", "plot-probability", "plot-clearance-1", "plot-clearance-2",
+                         "plot-sobol", "plot-validation"}) {
     ASSERT_TRUE(plots.count(id)) << id << "\n" << inspection;
     EXPECT_GT(plots.at(id).first, 0) << id;
   }
@@ -106,9 +108,11 @@ TEST(HtmlReport, DrawsTheZoneFromGeometryReadBackFromTheResultFile) {
   // Independent reader (h5py): the geometry is stored where docs say.
   const std::string out = run_python(
       "import h5py\n"
-      "f = h5py.File('" + path + "', 'r')\n"
-      "g = f['constraints/keep-out']\n"
-      "print(float(g['radius'][()]), list(g['center'][()]), [s.decode() for s in g['position'][()]])\n",
+      "f = h5py.File('" +
+          path +
+          "', 'r')\n"
+          "g = f['constraints/keep-out']\n"
+          "print(float(g['radius'][()]), list(g['center'][()]), [s.decode() for s in g['position'][()]])\n",
       folder.path);
   EXPECT_EQ(out, "15.0 [0.0, 0.0] ['x', 'y']\n");
 }

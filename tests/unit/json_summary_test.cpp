@@ -27,12 +27,15 @@ TEST(JsonSummary, ParsesWithPythonJsonAndCarriesEveryConstraint) {
   const std::string out = run_python(
       "import json\n"
       "def bad(x): raise ValueError('not JSON: ' + x)\n"
-      "d = json.load(open('" + (folder.path / "s.json").string() + "'), parse_constant=bad)\n"
-      "c = {k['name']: k for k in d['constraints']}\n"
-      "print(d['exit_code'], d['title'], sorted(c), c['keep-out']['margin'] is None)\n"
-      "print(c['corridor']['verdict'] == 'exceeds \"its\" bound\\\\\\n\\ttab \\x01 control')\n"
-      "print(c['keep-out']['montecarlo']['path_violations'], c['keep-out']['bound'], c['corridor']['within_bound'])\n"
-      "print(d['montecarlo']['runs'], d['surrogate']['germ_dimension'], d['surrogate']['basis_size'])\n",
+      "d = json.load(open('" +
+          (folder.path / "s.json").string() +
+          "'), parse_constant=bad)\n"
+          "c = {k['name']: k for k in d['constraints']}\n"
+          "print(d['exit_code'], d['title'], sorted(c), c['keep-out']['margin'] is None)\n"
+          "print(c['corridor']['verdict'] == 'exceeds \"its\" bound\\\\\\n\\ttab \\x01 control')\n"
+          "print(c['keep-out']['montecarlo']['path_violations'], c['keep-out']['bound'], "
+          "c['corridor']['within_bound'])\n"
+          "print(d['montecarlo']['runs'], d['surrogate']['germ_dimension'], d['surrogate']['basis_size'])\n",
       folder.path);
   const long long violations = r.constraints[0].montecarlo.path_violations;
   EXPECT_EQ(out, "1 Invented fly-by <A&B> \"test\" ['corridor', 'keep-out'] True\nTrue\n" + std::to_string(violations) +
@@ -47,8 +50,10 @@ TEST(JsonSummary, NominalOnlyResultHasNullSections) {
   std::ofstream(folder.path / "s.json") << json_summary(r);
   const std::string out = run_python(
       "import json\n"
-      "d = json.load(open('" + (folder.path / "s.json").string() + "'))\n"
-      "print(d['surrogate'], d['montecarlo'], d['constraints'], d['exit_code'])\n",
+      "d = json.load(open('" +
+          (folder.path / "s.json").string() +
+          "'))\n"
+          "print(d['surrogate'], d['montecarlo'], d['constraints'], d['exit_code'])\n",
       folder.path);
   EXPECT_EQ(out, "None None [] 0\n");
 }

@@ -32,12 +32,14 @@ TEST(JUnit, EscapesEverythingAndCountsFailuresAndSkips) {
   // Reference parser: Python's xml.etree.ElementTree.
   const std::string out = run_python(
       "import xml.etree.ElementTree as ET\n"
-      "root = ET.parse('" + (folder.path / "j.xml").string() + "').getroot()\n"
-      "s = root.find('testsuite')\n"
-      "c = s.findall('testcase')\n"
-      "print(s.get('name'), s.get('tests'), s.get('failures'), s.get('skipped'), s.get('time'))\n"
-      "print(c[0].get('classname'), c[1].get('name'), c[1].find('failure').get('message'))\n"
-      "print(repr(c[1].find('failure').text), c[2].find('skipped').get('message'))\n",
+      "root = ET.parse('" +
+          (folder.path / "j.xml").string() +
+          "').getroot()\n"
+          "s = root.find('testsuite')\n"
+          "c = s.findall('testcase')\n"
+          "print(s.get('name'), s.get('tests'), s.get('failures'), s.get('skipped'), s.get('time'))\n"
+          "print(c[0].get('classname'), c[1].get('name'), c[1].find('failure').get('message'))\n"
+          "print(repr(c[1].find('failure').text), c[2].find('skipped').get('message'))\n",
       folder.path);
   EXPECT_EQ(out,
             "suite & <name> 3 1 1 1.250\n"

@@ -6,6 +6,7 @@
 #include <gtest/gtest.h>
 
 #include <boost/math/distributions/normal.hpp>
+#include <algorithm>
 #include <cmath>
 
 namespace sigmatube::montecarlo {
@@ -46,7 +47,8 @@ std::vector<constraints::Constraint> make_constraints() {
   return {constraints::Constraint(ceiling, kOutputs), constraints::Constraint(band, kOutputs)};
 }
 
-MonteCarloResult run(int threads, long long runs, bool fail_some, const SurrogateEvaluator& surrogate = nullptr) {
+MonteCarloResult run(int threads, long long runs, bool fail_some, const SurrogateEvaluator& surrogate = nullptr,
+                     const Progress& progress = nullptr) {
   casefile::MonteCarloOptions options;
   options.runs = runs;
   options.seed = 99;
@@ -66,7 +68,7 @@ MonteCarloResult run(int threads, long long runs, bool fail_some, const Surrogat
                            model(xi, out);
                            return true;
                          },
-                         run_options, surrogate);
+                         run_options, surrogate, progress);
 }
 
 TEST(MonteCarlo, ClopperPearsonIntervalCoversClosedFormPathProbability) {
@@ -108,8 +110,15 @@ TEST(MonteCarlo, ClopperPearsonIntervalCoversClosedFormPathProbability) {
 }
 
 TEST(MonteCarlo, ThreadCountDoesNotChangeAnyBit) {
-  const auto a = run(1, 1234, true);
+  std::vector<long long> done;
+  const auto a = run(1, 1234, true, nullptr, [&](long long d, long long total) {
+    EXPECT_EQ(total, 1234);
+    done.push_back(d);
+  });
   const auto b = run(2, 1234, true);
+  ASSERT_FALSE(done.empty());
+  EXPECT_TRUE(std::is_sorted(done.begin(), done.end()));
+  EXPECT_EQ(done.back(), 1234);
   EXPECT_EQ(a.mean, b.mean);
   EXPECT_EQ(a.std, b.std);
   EXPECT_EQ(a.violations.constraints[0].clearance_mean, b.violations.constraints[0].clearance_mean);

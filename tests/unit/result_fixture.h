@@ -121,8 +121,8 @@ inline AnalysisResult make_fixture_result(bool with_montecarlo = true) {
     const boost::math::non_central_chi_squared ncx2(2.0, distance * distance / (sg * sg));
     const double p_ko = boost::math::cdf(ncx2, ko.radius * ko.radius / (sg * sg));
     const double p_co = boost::math::cdf(boost::math::complement(standard, (40.0 - s.mean(k, 0)) / sg));
-    const std::pair<ConstraintResult*, std::pair<double, double>> rows[] = {
-        {&ko, {p_ko, distance - ko.radius}}, {&co, {p_co, 40.0 - s.mean(k, 0)}}};
+    const std::pair<ConstraintResult*, std::pair<double, double>> rows[] = {{&ko, {p_ko, distance - ko.radius}},
+                                                                            {&co, {p_co, 40.0 - s.mean(k, 0)}}};
     for (const auto& [c, values] : rows) {
       c->pointwise_probability[k] = values.first;
       c->pointwise_standard_error[k] = std::sqrt(values.first * (1 - values.first) / double(s.samples));

@@ -147,13 +147,3 @@ TEST(SparseGrid, NestedRuleForHermiteIsAnInputErrorNamingTheKey) {
     EXPECT_EQ(e.where().key, "surrogate.nested");
   }
 }
-
-TEST(SparseGrid, PointMergerMergesWithinToleranceOnly) {
-  sigmatube::design::PointMerger merger(2);
-  const double a[] = {0.5, 1e-17}, b[] = {0.5 + 1e-14, 0.0}, c[] = {0.5 + 1e-9, 0.0};
-  EXPECT_EQ(merger.insert(a), 0);
-  EXPECT_EQ(merger.insert(b), 0);
-  EXPECT_EQ(merger.insert(c), 1);
-  EXPECT_EQ(merger.find(b), 0);
-  EXPECT_EQ(merger.size(), 2);
-}

@@ -63,8 +63,8 @@ TEST(SummaryText, ShowsMissingNumbersAsDash) {
 
 TEST(SummaryText, CautionsNameTheModelTheSurrogateLimitsTheCrossCheckAndTheAuthority) {
   const std::string c = cautions_text();
-  for (const char* phrase : {"model", "distributions", "saturation", "switching", "contact", "Monte Carlo",
-                             "safety", "regulations", "authority", "not this"}) {
+  for (const char* phrase : {"model", "distributions", "saturation", "switching", "contact", "Monte Carlo", "safety",
+                             "regulations", "authority", "not this"}) {
     // Words may wrap onto the next line; compare with newlines as spaces.
     std::string flat = c;
     std::replace(flat.begin(), flat.end(), '\n', ' ');
@@ -129,6 +129,41 @@ TEST(SummaryText, ImportanceSamplingAddsAColumnWithInterval) {
   const std::string text = summary_text(r);
   EXPECT_NE(text.find("importance sampling"), std::string::npos);
   EXPECT_NE(lines_starting_with(text, "keep-out").at(0).find("2.1e-06 [1.5e-06, 2.7e-06] 850"), std::string::npos);
+}
+
+}  // namespace
+}  // namespace sigmatube::result
+
+namespace sigmatube::result {
+namespace {
+
+TEST(MonteCarloGateInterval, PointwiseScopeIsClopperPearsonLikeSciPyBeta) {
+  testing::TemporaryFolder folder;
+  const AnalysisResult r = make_fixture_result();
+  const ConstraintResult& corridor = r.constraints[1];
+  ASSERT_EQ(corridor.scope, "pointwise");
+  double ci[2];
+  montecarlo_gate_interval(r, corridor, ci);
+  const long long n = r.montecarlo.runs;
+  const long long k = std::llround(montecarlo_gate_probability(corridor) * double(n));
+  // Reference: Clopper & Pearson (1934) via scipy.stats.beta.ppf(α/2, k, n−k+1)
+  // and beta.ppf(1−α/2, k+1, n−k), α = 0.05.
+  const std::string out = testing::run_python(
+      "from scipy.stats import beta\n"
+      "k, n = " + std::to_string(k) + ", " + std::to_string(n) + "\n"
+      "print(repr(beta.ppf(0.025, k, n - k + 1)), repr(beta.ppf(0.975, k + 1, n - k)))\n",
+      folder.path);
+  std::istringstream in(out);
+  double lo = 0, hi = 0;
+  in >> lo >> hi;
+  // Both sides invert the regularized incomplete beta function to near machine precision.
+  constexpr double kRelativeTolerance = 1e-9;
+  EXPECT_NEAR(ci[0], lo, kRelativeTolerance * lo);
+  EXPECT_NEAR(ci[1], hi, kRelativeTolerance * hi);
+  // Path scope returns the stored interval unchanged.
+  montecarlo_gate_interval(r, r.constraints[0], ci);
+  EXPECT_EQ(ci[0], r.constraints[0].montecarlo.path_interval[0]);
+  EXPECT_EQ(ci[1], r.constraints[0].montecarlo.path_interval[1]);
 }
 
 }  // namespace

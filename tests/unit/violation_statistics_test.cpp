@@ -138,7 +138,13 @@ TEST(ViolationStatistics, ChunkingAndThreadsDoNotChangeResults) {
   g.means = {{2, 0, 0}, {1.8, 0, 0}, {1.6, 0.2, 0}, {1.9, 0, 0.1}, {2.2, 0, 0}};
   auto window = sphere(1.0, 0.02);
   window.window_in_seconds = std::make_pair(1.0, 3.0);
-  std::vector<Constraint> constraints = {Constraint(sphere(1.0, 0.02), kOutputs), Constraint(window, kOutputs)};
+  casefile::ConstraintOptions expression;  // same sphere written as an expression: exercises the parser pool
+  expression.name = "expression";
+  expression.type = ConstraintKind::expression;
+  expression.clearance = "sqrt(x^2 + y^2 + z^2) - 1 + 0*t";
+  expression.max_probability = 0.02;
+  std::vector<Constraint> constraints = {Constraint(sphere(1.0, 0.02), kOutputs), Constraint(window, kOutputs),
+                                         Constraint(expression, kOutputs)};
   constexpr long long kSamples = 20000;
   auto fill = [&](long long b, long long e, Eigen::MatrixXd& Y) { g.fill(b, e, Y); };
   const auto one_chunk = stream_violation_statistics(constraints, g.times, 3, kSamples, kSamples, 1, fill);
@@ -167,6 +173,25 @@ TEST(ViolationStatistics, ChunkingAndThreadsDoNotChangeResults) {
   EXPECT_FALSE(std::isnan(one_chunk.constraints[1].pointwise_probability[1]));
   EXPECT_LE(one_chunk.constraints[1].path_violations, one_chunk.constraints[0].path_violations);
   EXPECT_GE(one_chunk.joint_violations, one_chunk.constraints[0].path_violations);
+  // The expression and the built-in sphere see the same violations (the muparser sqrt and
+  // Eigen's norm may differ in the last bit, which only matters exactly at c = 0).
+  EXPECT_EQ(chunked_2.constraints[2].path_violations, chunked_2.constraints[0].path_violations);
+  EXPECT_TRUE(chunked_2.constraints[2].clearance_mean.isApprox(chunked_2.constraints[0].clearance_mean, 1e-12));
+}
+
+TEST(ViolationStatistics, NaNClearanceIsANumericalErrorNamingSampleAndTime) {
+  std::vector<Constraint> constraints = {Constraint(sphere(1.0, 0.01), kOutputs)};
+  const Eigen::VectorXd times = Eigen::VectorXd::LinSpaced(2, 0, 5);
+  ViolationStatistics stats(constraints, times, 3, 10);
+  Eigen::MatrixXd Y = Eigen::MatrixXd::Constant(4, 6, 2.0);
+  Y(2, 4) = std::nan("");  // sample 2 at t = 5 s
+  try {
+    stats.add(Y, 100);
+    FAIL() << "expected NumericalError";
+  } catch (const NumericalError& e) {
+    EXPECT_EQ(e.sample(), 102);
+    EXPECT_EQ(e.time_in_seconds(), 5.0);
+  }
 }
 
 TEST(ViolationStatistics, WindowWithoutReportTimeIsAnInputError) {

@@ -28,6 +28,11 @@ struct LoadedCase {
 /// Throws InputError for anything wrong with the case, its plan or its expressions.
 LoadedCase load_case(const std::string& path);
 
+/// The same from options already read (e.g. a suite entry with its overrides
+/// applied, casefile::read_suite_case). `options.path` must name the case file:
+/// its bytes give case_sha256, and the plan was resolved against its folder.
+LoadedCase load_case(casefile::CaseOptions options);
+
 /// What `check` prints: model, dimensions, plan span, controller, uncertain
 /// inputs, constraints, and the number of model runs the design needs.
 std::string describe_case(const LoadedCase& loaded);

@@ -28,4 +28,9 @@ std::string did_you_mean(const std::string& word, const std::vector<std::string>
 /// "a, b, c": the allowed values, for messages that list them.
 std::string join_names(const std::vector<std::string>& names);
 
+/// did_you_mean() when some candidate is close, else " (known: a, b, …)", and
+/// " (there are none)" for an empty list: for names the user must pick from a
+/// short list the program knows (models, states, inputs, targets).
+std::string suggestion_or_list(const std::string& word, const std::vector<std::string>& candidates);
+
 }  // namespace sigmatube::casefile

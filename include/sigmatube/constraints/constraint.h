@@ -49,7 +49,7 @@ class Constraint {
   ///   that does not match the position's size, a zero normal/axis, a cone half
   ///   angle outside (0, 90) degrees, non-positive radius or semi-axes, an empty or
   ///   reversed window, or an expression with a syntax error (the message names the
-  ///   position in the expression).
+  ///   position in the expression, counted from 0 as muparser does).
   Constraint(const casefile::ConstraintOptions& options, const std::vector<std::string>& output_names);
   ~Constraint();
   Constraint(Constraint&&) noexcept;

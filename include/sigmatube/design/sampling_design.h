@@ -4,7 +4,7 @@
 // the unit cube, u ∈ (0, 1)^d, then mapped per dimension through the family's
 // quantile, ξ_k = F_k⁻¹(u_k) = from_standard_normal(spec_k, Φ⁻¹(u_k)).
 //   Sobol:  the Sobol sequence (Sobol', USSR Comput. Math. Math. Phys. 7, 1967)
-//           from boost::random::sobol, with the all-zero first point skipped so
+//           from boost::random::sobol, which starts after the all-zero point, so
 //           every u_k is inside (0, 1). The first N points of a longer design
 //           are the N-point design (nested: adaptive regression reuses runs).
 //   Latin hypercube (McKay, Beckman & Conover, Technometrics 21, 1979):

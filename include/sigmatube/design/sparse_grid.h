@@ -12,11 +12,11 @@
 // Coincident points of different tensor rules are merged so that each model run
 // happens once; every tensor term keeps the indices of its points in the merged
 // list, for pseudo-spectral projection.
-#include <map>
 #include <vector>
 
 #include <Eigen/Dense>
 
+#include "sigmatube/design/point_merger.h"
 #include "sigmatube/design/quadrature_rule.h"
 #include "sigmatube/germ/family.h"
 
@@ -52,28 +52,5 @@ SparseGrid build_sparse_grid(const std::vector<germ::FamilySpec>& families, int 
 /// Number of points of the grid without building weights (same merging); used
 /// to check budgets cheaply.
 int sparse_grid_size(const std::vector<germ::FamilySpec>& families, int level, bool nested);
-
-/// Merges points given as per-dimension node values into canonical keys: two
-/// values of one dimension are the same node when they differ by at most
-/// 1e-12·max(1, |x|). Shared by every design that must run each point once.
-class PointMerger {
- public:
-  explicit PointMerger(int dimension);
-  /// Row of the point in the merged list, appending it when new.
-  int insert(const double* point);
-  /// Row of the point, or −1 when absent.
-  int find(const double* point) const;
-  int size() const { return static_cast<int>(rows_.size()); }
-  /// The merged points, [size(), d], each as first inserted.
-  Eigen::MatrixXd points() const;
-
- private:
-  // Node id of a coordinate value in dimension k, or −1 when no node is within tolerance.
-  int node_id(int k, double x) const;
-  int dimension_;
-  std::vector<std::map<double, int>> nodes_;  // per dimension: canonical value → node id
-  std::map<std::vector<int>, int> rows_;      // node ids → row
-  std::vector<double> coordinates_;           // row-major, as first inserted
-};
 
 }  // namespace sigmatube::design

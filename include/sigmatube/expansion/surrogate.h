@@ -57,21 +57,52 @@ struct SurrogateSummary {
   int model_runs = 0;           // distinct model runs made
   int level_reached = 0;        // sparse-grid level, or 0
   int degree_reached = 0;       // basis total degree
-  bool tolerance_met = true;    // adaptive: every error estimate ≤ tolerance
-  // Relative error estimate per output (max over report times), [n_outputs]:
-  // sparse/tensor grid: ‖C_L - C_{L-1}‖ / sd  (difference to the previous level);
-  // regression: leave-one-out error / variance (Blatman & Sudret 2010).
+  bool tolerance_met = true;    // every error estimate ≤ tolerance (also reported when not adaptive)
+  // Relative error estimate per output, [n_outputs]: the column estimates below
+  // pooled over report times with weights s_c² (norm ratios: √(Σ_t ‖ΔC_c‖²/Σ_t s_c²);
+  // LOO: Σ_t ε_c s_c² / Σ_t s_c²), the relative error of the whole time history. Per
+  // column c, with sd_c = √(Σ_{α≠0} C[α,c]²) and s_c = max(sd_c, 1e-9·(1 + |mean_c|))
+  // (the floor keeps constant outputs from dividing by ~0):
+  //   sparse grid:  ‖C_L[:,c] − C_{L−1}[:,c]‖₂ / s_c, the change from level L − 1
+  //                 (both projected on the union of their index sets); level 1 has
+  //                 no coarser level and reports NaN;
+  //   tensor grid, adaptive:     ‖C_p − C_{p−1}‖₂ / s_c, the change from degree p − 1;
+  //   tensor grid, not adaptive: ‖C[{α : |α| = p}, c]‖₂ / s_c, the weight of the
+  //                 highest total degree (no extra runs);
+  //   regression:   ε_LOO = mean_i(e_i²)/var(y), e_i = r_i/(1 − h_i), the relative
+  //                 leave-one-out error (Blatman & Sudret, J. Comput. Phys. 230, 2011;
+  //                 note it is a ratio of squares, the others ratios of norms).
   Eigen::VectorXd error_estimate;
   std::vector<std::string> notes;  // what happened, e.g. "run budget reached at level 4"
 };
 
-/// Number of distinct model runs the configured design needs (for `check`).
-/// Throws InputError when the design cannot be built (budget, unsupported combination).
+/// Number of distinct model runs the configured design needs (for `check`): the
+/// whole design when not adaptive, the first step when adaptive (the adaptive
+/// loop may then use up to max_model_runs). The sparse-grid count includes the
+/// level L − 1 points its error estimate needs (shared with level L for nested
+/// rules; extra runs for Gauss rules), the adaptive tensor-grid count the
+/// degree p − 1 grid. Throws InputError (keys "surrogate.max_model_runs",
+/// "surrogate.nested", "surrogate.oversampling", "surrogate.level",
+/// "surrogate.degree", "surrogate.q_norm", "surrogate.tolerance", "uncertain"
+/// for an empty germ) when the design cannot be built.
 int planned_model_runs(const std::vector<germ::FamilySpec>& families, const casefile::SurrogateOptions& options);
 
 /// Builds the surrogate. Coefficients for every output come from one matrix
-/// product over one set of model runs. Throws InputError for a design the
-/// options cannot support (e.g. budget below the first level).
+/// product C = W·Y over one set of model runs; the evaluator receives every new
+/// point of a design in one call, and a point shared by two designs (exact same
+/// coordinates) runs once.
+///   sparse-grid  Smolyak pseudo-spectral projection (expansion/pseudo_spectral_projection.h)
+///                at options.level, Gauss linear-growth rules or nested Clenshaw–Curtis;
+///   tensor-grid  full tensor Gauss with degree + 1 points per dimension, projected on
+///                the total-degree / q-norm set (expansion/tensor_projection.h);
+///   regression   least squares on ceil(oversampling·P) Sobol or Latin hypercube
+///                points (expansion/regression.h).
+/// Adaptive: starts at options.level (at least 2) or options.degree (at least 1)
+/// and raises it by one until every output's error estimate ≤ tolerance, or the
+/// next step would exceed max_model_runs (then tolerance_met = false and a note
+/// says so). Throws InputError as planned_model_runs does (checked before any
+/// run), NumericalError when a run returns a non-finite value or the regression
+/// design matrix is rank deficient.
 Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_times, int n_outputs,
                           const casefile::SurrogateOptions& options, const ModelEvaluator& evaluate,
                           SurrogateSummary* summary);

@@ -51,8 +51,9 @@ class ClosedLoop {
   /// Times at which a Perturbation's disturbance values sit (= report_times()).
   const std::vector<double>& disturbance_times() const { return report_times_; }
 
-  /// States, then derived outputs, then the commanded inputs (before scale, bias
-  /// and saturation) named "cmd.<input>", so input limits can be checked.
+  /// States, then derived outputs, then the demanded actuator inputs
+  /// input_scale ∘ u_cmd + input_bias, before saturation, named "cmd.<input>",
+  /// so input limits and saturation can be checked.
   const std::vector<std::string>& output_names() const { return output_names_; }
   int output_count() const { return static_cast<int>(output_names_.size()); }
 

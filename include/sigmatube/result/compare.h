@@ -56,7 +56,7 @@ struct CompareRow {
   double allowed_increase = kNaN;  // Δ_allowed
   double bound = kNaN;             // max probability applied to the candidate
   double min_margin = kNaN;
-  std::string test;                // "pooled z" | "Fisher exact" | "normal z" | ""
+  std::string test;  // "pooled z" | "Fisher exact" | "normal z" | ""
   double z = kNaN, p_value = kNaN;
   bool significant = false;
   bool regression = false;
@@ -82,7 +82,8 @@ struct CompareReport {
 ///   p_c > max probability, or margin_c < min_margin, or
 ///   the constraint is missing in the candidate (a dropped check is not a pass).
 /// A constraint new in the candidate is checked against the bound and margin only.
-CompareReport compare_results(const AnalysisResult& base, const AnalysisResult& candidate, const CompareOptions& options);
+CompareReport compare_results(const AnalysisResult& base, const AnalysisResult& candidate,
+                              const CompareOptions& options);
 
 /// Aligned table, one line per regressed constraint naming it and why, and a
 /// last line "release gate: pass" or "release gate: REGRESSION (n constraints)".

@@ -29,7 +29,8 @@ ProportionTest fisher_exact_greater(long long x_base, long long n_base, long lon
 /// The gate's choice: Fisher's exact test when the smallest expected cell
 /// count of the 2×2 table under H0, min(n_i p̂, n_i (1−p̂)), is below 5
 /// (Cochran's rule, common practice), the pooled z test otherwise.
-ProportionTest one_sided_increase_test(long long x_base, long long n_base, long long x_candidate, long long n_candidate);
+ProportionTest one_sided_increase_test(long long x_base, long long n_base, long long x_candidate,
+                                       long long n_candidate);
 
 /// Two independent estimates with standard errors (e.g. surrogate sampling):
 ///   z = (p_c − p_b)/√(se_b² + se_c²),  p-value = 1 − Φ(z).

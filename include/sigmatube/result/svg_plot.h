@@ -13,7 +13,7 @@ namespace sigmatube::result {
 struct SvgStyle {
   std::string stroke = "#1f3a5f";
   double stroke_width_px = 1.6;
-  std::string dash;           // SVG stroke-dasharray, e.g. "6 3"; empty: solid
+  std::string dash;  // SVG stroke-dasharray, e.g. "6 3"; empty: solid
   std::string fill = "none";
   double fill_opacity = 1.0;
   double stroke_opacity = 1.0;

@@ -11,7 +11,7 @@ struct TextTable {
   std::vector<std::vector<std::string>> rows;  // each as long as header
   std::vector<bool> right_aligned;             // per column; missing = left
   std::string indent = "  ";
-  std::string gap = "  ";                      // between columns
+  std::string gap = "  ";  // between columns
 
   /// Header, a dashed rule, then the rows; widths count UTF-8 code points.
   /// Throws std::logic_error when a row's length differs from the header's.

@@ -1,0 +1,114 @@
+// SPDX-License-Identifier: MIT
+#pragma once
+// Rare-event probabilities (bounds ≤ 1e-4) by importance sampling around the most
+// probable violation point, in standard-normal germ space z (ξ_j = F_j⁻¹(Φ(z_j))).
+//
+// Most probable point (design point): z* = argmin ‖z‖ subject to g(z) ≤ 0, g the
+// limit-state function (for us the surrogate's path-minimum clearance), β = ‖z*‖.
+// Found by HL-RF iterations (Hasofer & Lind, "Exact and invariant second-moment code
+// format", J. Eng. Mech. Div. ASCE 100, 1974; Rackwitz & Fiessler, "Structural
+// reliability under combined random load sequences", Computers & Structures 9, 1978):
+//     z_{k+1} = [(∇g(z_k)·z_k − g(z_k)) / ‖∇g(z_k)‖²] ∇g(z_k),
+// with central finite-difference gradients and a step-halving line search on the merit
+// ½‖z‖² + c|g| (Zhang & Der Kiureghian, "Finite element reliability methods for
+// inelastic structures", UCB/SEMM-97/05, 1997) so that curved limit states converge.
+// For a linear g(z) = β − a·z/‖a‖, p = Φ(−β) exactly and one step reaches z* = βa/‖a‖.
+//
+// Importance sampling (proposal N(z*, I)): sample i uses
+//     z_i = z* + u_i,  u_ij = CounterRng(seed + stream).normal(i, j),
+//     w_i = φ(z_i)/φ(z_i − z*) = exp(−z*·z_i + ‖z*‖²/2),
+//     p̂ = (1/n) Σ w_i 1[violation_i],
+//     se = s/√n with s² the sample variance of w_i 1[violation_i],
+//     interval p̂ ± Φ⁻¹((1 + confidence)/2)·se, clipped at 0 (normal approximation:
+//         it is only trustworthy when the effective sample size is large),
+//     ESS = (Σ w_i)² / Σ w_i² over all samples.
+// Failed runs are counted and excluded (n counts the successful runs).
+// Chunks of fixed size are merged in chunk order: bit-identical for any thread count.
+#include <functional>
+#include <optional>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include <Eigen/Core>
+
+#include "sigmatube/constraints/constraint.h"
+#include "sigmatube/germ/family.h"
+
+namespace sigmatube::montecarlo {
+
+/// Limit state in standard-normal space; g ≤ 0 is a violation.
+using LimitState = std::function<double(const Eigen::VectorXd& z)>;
+
+/// The starting point HL-RF should use: the row of z ([N, d], standard-normal germ
+/// points of surrogate samples) with g < 0 and the smallest ‖z‖; empty when no row violates.
+std::optional<Eigen::VectorXd> closest_violating_sample(const Eigen::MatrixXd& z, const Eigen::VectorXd& g);
+
+struct MostProbablePointOptions {
+  int max_iterations = 1000;  // HL-RF converges linearly on curved limit states (ratio ≈ β·curvature)
+  double tolerance = 1e-10;              // stop when ‖z_{k+1} − z_k‖ ≤ tolerance·max(1, ‖z_k‖) and |g| small
+  double limit_state_tolerance = 1e-9;   // |g(z*)| ≤ this·max(1, |g(0)|)
+  double gradient_step = 1e-5;           // central differences: ∂g/∂z_j ≈ (g(z + h e_j) − g(z − h e_j))/2h
+};
+
+struct MostProbablePoint {
+  Eigen::VectorXd z;
+  double beta = 0.0;          // ‖z*‖
+  double limit_state = 0.0;   // g(z*)
+  int iterations = 0;
+  bool converged = false;
+};
+
+/// @param start  e.g. the violating surrogate sample with the smallest ‖z‖; else the origin.
+/// @throws NumericalError when the gradient of g vanishes.
+MostProbablePoint find_most_probable_point(const LimitState& g, int dimension,
+                                           const std::optional<Eigen::VectorXd>& start = std::nullopt,
+                                           const MostProbablePointOptions& options = {});
+
+struct ImportanceSamplingOptions {
+  long long samples = 5000;
+  unsigned long long seed = 20261201ULL;
+  unsigned long long stream = 1;  // added to the seed so these draws differ from the Monte Carlo ones
+  double confidence = 0.95;
+  long long chunk_size = 64;
+  int threads = 0;
+  int reported_failures = 5;
+};
+
+struct ImportanceSamplingResult {
+  long long samples = 0;             // requested
+  long long successful_samples = 0;
+  long long failed_samples = 0;
+  std::vector<std::pair<long long, std::string>> first_failures;
+  long long violations = 0;          // unweighted count of violating samples
+  double probability = 0.0;
+  double standard_error = 0.0;
+  double lower = 0.0, upper = 0.0;   // normal approximation, lower clipped at 0
+  double effective_sample_size = 0.0;
+  Eigen::VectorXd design_point;
+};
+
+/// Generic estimator: violated(z, sample, &error) returns 1 (violation), 0 (safe) or
+/// −1 (the run failed; *error says why).
+using ViolationIndicator = std::function<int(const Eigen::VectorXd& z, long long sample, std::string* error)>;
+ImportanceSamplingResult importance_sample(const Eigen::VectorXd& design_point, const ViolationIndicator& violated,
+                                           const ImportanceSamplingOptions& options = {});
+
+/// The full model at a standard-normal point z: fill outputs[t·n_out + o]; false on failure.
+using RunStandardNormalSample = std::function<bool(const double* z, long long sample, double* outputs, std::string* error)>;
+
+/// Importance sampling of one constraint's path violation (any report time in its
+/// window with clearance < 0) with the full model.
+ImportanceSamplingResult importance_sample_constraint(const Eigen::VectorXd& design_point,
+                                                      const constraints::Constraint& constraint,
+                                                      const Eigen::VectorXd& times_in_seconds, int n_outputs,
+                                                      const RunStandardNormalSample& run,
+                                                      const ImportanceSamplingOptions& options = {});
+
+/// Adapts a germ-space model run (monte_carlo.h RunSample signature) to z:
+/// ξ_j = from_standard_normal(families_j, z_j).
+RunStandardNormalSample in_standard_normal_space(
+    const std::vector<germ::FamilySpec>& families,
+    std::function<bool(const double* xi, long long sample, double* outputs, std::string* error)> run_in_germ_space);
+
+}  // namespace sigmatube::montecarlo

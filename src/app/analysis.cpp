@@ -2,11 +2,14 @@
 #include "sigmatube/app/analysis.h"
 
 #include <algorithm>
+#include <atomic>
 #include <chrono>
 #include <cmath>
 #include <ctime>
 #include <sstream>
+#include <vector>
 
+#include "sigmatube/app/model_runs.h"
 #include "sigmatube/app/progress.h"
 #include "sigmatube/constraints/margins.h"
 #include "sigmatube/constraints/reformulations.h"
@@ -70,6 +73,10 @@ void run_at(const LoadedCase& loaded, const double* xi, long long sample, double
   cl.run(p, out, sample);
   Eigen::Map<Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>>(outputs, out.rows(), out.cols()) = out;
 }
+
+// Design runs go in smaller blocks than Monte Carlo waves (ModelRunner's
+// default), so that a few hundred of them still balance over threads.
+constexpr std::size_t kDesignRunsPerBlock = 16;
 
 expansion::Surrogate constant_surrogate(const result::AnalysisResult& r) {
   expansion::Surrogate s;
@@ -200,6 +207,8 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
   const long long samples = d == 0 ? 1 : options.samples.value_or(loaded.options.surrogate.samples);
   const Eigen::VectorXd times = times_vector(r.time);
 
+  const ModelRunner runner(loaded);
+
   // 1. Surrogate from one set of design runs.
   expansion::Surrogate surrogate;
   expansion::SurrogateSummary summary;
@@ -215,14 +224,13 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
       const long long first = design_runs_done;
       values.resize(points.rows(), static_cast<Eigen::Index>(n_times) * n_out);
       ProgressBar bar("surrogate design runs", static_cast<std::size_t>(points.rows()), options.progress);
-      std::atomic<std::size_t> done{0};
-      parallel_for(static_cast<std::size_t>(points.rows()), threads, [&](std::size_t i) {
-        const Eigen::RowVectorXd xi = points.row(static_cast<Eigen::Index>(i));
-        Eigen::RowVectorXd row(static_cast<Eigen::Index>(n_times) * n_out);
-        run_at(loaded, xi.data(), first + static_cast<long long>(i), row.data());
-        values.row(static_cast<Eigen::Index>(i)) = row;
-        bar.update(++done);
-      });
+      // Spread over ranks and threads; every rank ends up with every row.
+      std::vector<double> rows(static_cast<std::size_t>(points.rows()) * static_cast<std::size_t>(values.cols()));
+      std::vector<std::uint8_t> ok(static_cast<std::size_t>(points.rows()));
+      runner.run(points, first, threads, kDesignRunsPerBlock, rows.data(), ok.data(), true);
+      for (Eigen::Index i = 0; i < points.rows(); ++i)
+        values.row(i) = Eigen::Map<const Eigen::RowVectorXd>(rows.data() + i * values.cols(), values.cols());
+      bar.update(static_cast<std::size_t>(points.rows()));
       bar.finish();
       design_runs_done += points.rows();
     };
@@ -354,6 +362,12 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
         if (error) *error = e.what();
         return false;
       }
+    };
+    // Each wave of runs goes over ranks and threads; the accumulators then see
+    // the same rows in the same order on every rank.
+    run_options.run_rows = [&](long long begin, long long, const Eigen::MatrixXd& xi, double* outputs,
+                               std::uint8_t* ok) {
+      runner.run(xi, begin, threads, app::ModelRunner::kDefaultBlock, outputs, ok, false);
     };
     const montecarlo::SurrogateEvaluator evaluate_surrogate = [&](const Eigen::MatrixXd& xi, Eigen::MatrixXd& values) {
       surrogate.evaluate(xi, values);

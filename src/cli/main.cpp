@@ -17,6 +17,7 @@
 #include "sigmatube/app/analysis.h"
 #include "sigmatube/app/batch.h"
 #include "sigmatube/app/case_loader.h"
+#include "sigmatube/core/distributed.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/result/compare.h"
 #include "sigmatube/result/html_report.h"
@@ -77,6 +78,10 @@ int main(int argc, char** argv) {
   // muparser's bulk mode parallelizes with OpenMP; our own worker threads already
   // use every core, so nested OpenMP threads would only oversubscribe them.
   ::setenv("OMP_NUM_THREADS", "1", 0);
+  // Under mpirun every rank runs this program; model runs are shared out inside
+  // the library, and only rank 0 prints and writes files.
+  const DistributedSession session(&argc, &argv);
+  const bool leader = process_rank() == 0;
   CLI::App cli{"sigmatube: chance-constraint analysis of closed-loop trajectory plans by polynomial chaos,\n"
                "cross-checked with Monte Carlo."};
   cli.require_subcommand(1);
@@ -144,10 +149,16 @@ int main(int argc, char** argv) {
   } catch (const CLI::CallForVersion& e) {
     return cli.exit(e);
   } catch (const CLI::ParseError& e) {
-    std::cerr << "sigmatube: error: " << e.what() << " (see --help)\n";
+    if (leader) std::cerr << "sigmatube: error: " << e.what() << " (see --help)\n";
     return kExitBadInput;
   }
 
+  if (!leader) common.quiet = true;
+  // Only `run` shares its model runs over ranks; every other command is done by rank 0 alone.
+  if (!run->parsed()) {
+    if (!leader) return 0;
+    use_single_process();
+  }
   try {
     if (check->parsed()) {
       const app::LoadedCase loaded = app::load_case(case_path);
@@ -187,6 +198,7 @@ int main(int argc, char** argv) {
       app::AnalysisOptions options = analysis_options(common);
       options.samples = samples;
       const result::AnalysisResult analysis = app::analyze_case(loaded, options);
+      if (!leader) return analysis.verdict_exit_code();
       result::write_result_file(analysis, output, common.force);
       if (!common.json.empty()) result::write_text_file(result::json_summary(analysis), common.json, common.force);
       say(common, result::summary_text(analysis));
@@ -236,13 +248,13 @@ int main(int argc, char** argv) {
       return 0;
     }
   } catch (const InputError& e) {
-    std::cerr << "sigmatube: error: " << e.what() << '\n';
+    if (leader) std::cerr << "sigmatube: error: " << e.what() << '\n';
     return kExitBadInput;
   } catch (const NumericalError& e) {
-    std::cerr << "sigmatube: numerical failure: " << e.what() << '\n';
+    if (leader) std::cerr << "sigmatube: numerical failure: " << e.what() << '\n';
     return kExitNumerical;
   } catch (const std::exception& e) {
-    std::cerr << "sigmatube: internal error: " << e.what() << '\n';
+    if (leader) std::cerr << "sigmatube: internal error: " << e.what() << '\n';
     return kExitNumerical;
   }
   return kExitBadInput;

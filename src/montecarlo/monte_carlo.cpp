@@ -107,6 +107,26 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
   const long long n_chunks = (runs + chunk - 1) / chunk;
   for (long long wave = 0; wave < n_chunks; wave += kChunksPerWave) {
     const long long in_wave = std::min(kChunksPerWave, n_chunks - wave);
+    // With a row runner the whole wave is run first (possibly over ranks);
+    // the chunks below then only read their rows.
+    const long long wave_begin = wave * chunk, wave_end = std::min(runs, (wave + in_wave) * chunk);
+    Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> wave_outputs;
+    std::vector<std::uint8_t> wave_ok;
+    if (run_options.run_rows) {
+      const Eigen::Index wave_rows = wave_end - wave_begin;
+      Eigen::MatrixXd wave_xi(wave_rows, d);
+      parallel_for_chunks(static_cast<std::size_t>(wave_rows), static_cast<std::size_t>(chunk), run_options.threads,
+                          [&](std::size_t b, std::size_t e) {
+                            std::vector<double> point(static_cast<std::size_t>(d));
+                            for (std::size_t r = b; r < e; ++r) {
+                              germ_point(families, options.seed, wave_begin + static_cast<long long>(r), point.data());
+                              for (int j = 0; j < d; ++j) wave_xi(static_cast<Eigen::Index>(r), j) = point[static_cast<std::size_t>(j)];
+                            }
+                          });
+      wave_outputs.setConstant(wave_rows, columns, kNaN);
+      wave_ok.assign(static_cast<std::size_t>(wave_rows), 0);
+      run_options.run_rows(wave_begin, wave_end, wave_xi, wave_outputs.data(), wave_ok.data());
+    }
     std::vector<Partial> partial;
     partial.reserve(static_cast<std::size_t>(in_wave));
     for (long long w = 0; w < in_wave; ++w) partial.emplace_back(constraints, times, n_outputs, runs, columns);
@@ -125,7 +145,20 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
         for (int j = 0; j < d; ++j) xi(r, j) = point[static_cast<std::size_t>(j)];
         std::fill(outputs.begin(), outputs.end(), kNaN);
         std::string error;
-        if (!run_sample(point.data(), sample, outputs.data(), &error)) {
+        bool ran = false;
+        if (run_options.run_rows) {
+          const Eigen::Index at = sample - wave_begin;
+          ran = wave_ok[static_cast<std::size_t>(at)] != 0;
+          if (ran) {
+            for (Eigen::Index c = 0; c < columns; ++c) outputs[static_cast<std::size_t>(c)] = wave_outputs(at, c);
+          } else {
+            // Same run again, only for its message (failures are rare and deterministic).
+            (void)run_sample(point.data(), sample, outputs.data(), &error);
+          }
+        } else {
+          ran = run_sample(point.data(), sample, outputs.data(), &error);
+        }
+        if (!ran) {
           ++p.failed;
           if (static_cast<int>(p.failures.size()) < run_options.reported_failures) {
             p.failures.emplace_back(sample, error.empty() ? "run failed (no message)" : error);

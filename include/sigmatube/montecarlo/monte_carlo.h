@@ -44,6 +44,13 @@ namespace sigmatube::montecarlo {
 using RunSample = std::function<bool(const double* xi, long long sample, double* outputs, std::string* error)>;
 /// Surrogate at germ points xi [n, d] → values [n, T·n_out] (column c = t·n_out + o).
 using SurrogateEvaluator = std::function<void(const Eigen::MatrixXd& xi, Eigen::MatrixXd& values)>;
+/// Many model runs at once: samples [begin, end) at germ points xi ([end − begin, d],
+/// row i − begin for sample i). Writes outputs[(i − begin)·T·n_out + c] and
+/// ok[i − begin] (1 = success, 0 = failed). Called from the calling thread, once
+/// per wave of chunks; it parallelizes (threads, MPI ranks, batched propagation)
+/// as it likes. For failed rows run_sample is called again for the message.
+using RunRows = std::function<void(long long begin, long long end, const Eigen::MatrixXd& xi, double* outputs,
+                                   std::uint8_t* ok)>;
 /// Called from the calling thread after each wave of chunks.
 using Progress = std::function<void(long long done, long long total)>;
 
@@ -65,6 +72,10 @@ struct MonteCarloRunOptions {
   int kept_runs = 40;               // first K sample indices kept for plots
   int reported_failures = 5;        // failure messages kept (lowest sample indices)
   std::vector<SaturationLimit> saturation;
+  // Optional: runs a whole wave through this instead of run_sample per run. The
+  // accumulators see the same rows in the same chunk order, so every number is
+  // the same as without it.
+  RunRows run_rows;
 };
 
 struct ConstraintMonteCarlo {

@@ -1,0 +1,55 @@
+// SPDX-License-Identifier: MIT
+#pragma once
+// Many closed-loop runs at once, structure of arrays: the state of lane l sits at
+// X[i·L + l], so the plan interpolation and the gain at each stage time are
+// computed once per batch and the per-lane arithmetic runs in contiguous loops
+// the compiler vectorizes. Built-in Hill–Clohessy–Wiltshire dynamics get a
+// lane-loop kernel; expression models whose right-hand sides compile to lane
+// programs (model/lane_expression.h) run those; any other model is called lane
+// by lane.
+//
+// Same arithmetic, same order, as ClosedLoop::run with the fixed-step rk4
+// integrator (model/integrator.h), so every output is bit-identical to the
+// one-run path (expression programs: equal to muparser up to rounding); a lane whose state stops being finite or leaves ±1e12 is marked
+// failed and the caller reruns it through ClosedLoop::run for the message.
+// Supported: rk4 only (dopri5 adapts its step per run, which does not batch).
+#include <cstddef>
+#include <cstdint>
+#include <vector>
+
+#include <Eigen/Dense>
+
+#include "sigmatube/casefile/case_options.h"
+#include "sigmatube/model/closed_loop.h"
+#include "sigmatube/model/lane_expression.h"
+
+namespace sigmatube::model {
+
+class BatchPropagator {
+ public:
+  /// `options` must be the case the closed loop was built from.
+  BatchPropagator(const ClosedLoop& closed_loop, const casefile::CaseOptions& options);
+
+  /// True when the batched path applies (fixed-step rk4).
+  bool supported() const { return supported_; }
+  /// True when an expression model's right-hand sides run as lane programs.
+  bool compiled_expressions() const { return !programs_.empty(); }
+
+  /// Runs lanes l = 0 … lanes−1 with perturbations[l] and writes lane l's outputs
+  /// row-major by time (rows + l·row_stride)[t·n_out + o], as ClosedLoop::run's
+  /// outputs(t, o); ok[l] = 1, or 0 when the lane diverged (its row is then
+  /// meaningless). Allocates its work arrays once per call, never per step.
+  /// @throws std::logic_error when not supported() or sizes do not match.
+  void run(const Perturbation* perturbations, int lanes, double* rows, std::size_t row_stride,
+           std::uint8_t* ok) const;
+
+ private:
+  const ClosedLoop& closed_loop_;
+  casefile::SimulationOptions simulation_;
+  bool supported_ = false;
+  bool hcw_ = false;
+  std::vector<LaneExpression> programs_;  // per state, variables t, states, inputs, parameters
+  Eigen::VectorXd input_low_, input_high_;
+};
+
+}  // namespace sigmatube::model

@@ -1,0 +1,71 @@
+// SPDX-License-Identifier: MIT
+#include "sigmatube/app/model_runs.h"
+
+#include <algorithm>
+#include <vector>
+
+#include "sigmatube/core/distributed.h"
+#include "sigmatube/core/error.h"
+
+namespace sigmatube::app {
+
+ModelRunner::ModelRunner(const LoadedCase& loaded) : loaded_(loaded), batch_(*loaded.closed_loop, loaded.options) {}
+
+void ModelRunner::run_one(const double* xi, long long sample, double* outputs) const {
+  const auto& cl = *loaded_.closed_loop;
+  model::Perturbation p = cl.nominal();
+  loaded_.germ->apply(xi, p);
+  Eigen::MatrixXd out(static_cast<Eigen::Index>(cl.report_times().size()), cl.output_count());
+  cl.run(p, out, sample);
+  Eigen::Map<Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>>(outputs, out.rows(), out.cols()) = out;
+}
+
+// Rows of width T·n_out + 1: the outputs, then 1 (ran) or 0 (failed), so that the
+// status travels with the row between ranks.
+void ModelRunner::run_block(const Eigen::MatrixXd& points, long long first, std::size_t begin, std::size_t end,
+                            double* rows, bool rethrow) const {
+  const auto& cl = *loaded_.closed_loop;
+  const std::size_t columns = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
+  const std::size_t width = columns + 1;
+  const std::size_t lanes = end - begin;
+  std::vector<std::uint8_t> ok(lanes, 0);
+  if (batch_.supported()) {
+    std::vector<model::Perturbation> perturbations(lanes, cl.nominal());
+    for (std::size_t l = 0; l < lanes; ++l) {
+      const Eigen::RowVectorXd xi = points.row(static_cast<Eigen::Index>(begin + l));
+      loaded_.germ->apply(xi.data(), perturbations[l]);
+    }
+    batch_.run(perturbations.data(), static_cast<int>(lanes), rows, width, ok.data());
+  }
+  for (std::size_t l = 0; l < lanes; ++l) {
+    double* row = rows + l * width;
+    if (!ok[l]) {
+      const Eigen::RowVectorXd xi = points.row(static_cast<Eigen::Index>(begin + l));
+      try {
+        run_one(xi.data(), first + static_cast<long long>(begin + l), row);
+        ok[l] = 1;
+      } catch (const NumericalError&) {
+        if (rethrow) throw;
+      }
+    }
+    row[columns] = ok[l] ? 1.0 : 0.0;
+  }
+}
+
+void ModelRunner::run(const Eigen::MatrixXd& points, long long first, int threads, std::size_t block, double* outputs,
+                      std::uint8_t* ok, bool rethrow) const {
+  const auto& cl = *loaded_.closed_loop;
+  const std::size_t count = static_cast<std::size_t>(points.rows());
+  const std::size_t columns = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
+  std::vector<double> rows(count * (columns + 1));
+  run_distributed_rows(count, columns + 1, std::max<std::size_t>(block, 1), threads,
+                       [&](std::size_t b, std::size_t e, double* part) { run_block(points, first, b, e, part, rethrow); },
+                       rows.data());
+  for (std::size_t i = 0; i < count; ++i) {
+    const double* row = rows.data() + i * (columns + 1);
+    std::copy(row, row + columns, outputs + i * columns);
+    ok[i] = row[columns] != 0.0 ? 1 : 0;
+  }
+}
+
+}  // namespace sigmatube::app

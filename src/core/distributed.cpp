@@ -1,0 +1,179 @@
+// SPDX-License-Identifier: MIT
+#include "sigmatube/core/distributed.h"
+
+#include <algorithm>
+#include <climits>
+#include <exception>
+#include <mutex>
+#include <stdexcept>
+#include <string>
+#include <vector>
+
+#ifdef SIGMATUBE_WITH_MPI
+#define OMPI_SKIP_MPICXX 1  // the C API only
+#include <mpi.h>
+#endif
+
+#include "sigmatube/core/error.h"
+#include "sigmatube/core/parallel.h"
+
+namespace sigmatube {
+namespace {
+
+bool single_process = false;
+
+[[maybe_unused]] bool mpi_active() {
+  if (single_process) return false;
+#ifdef SIGMATUBE_WITH_MPI
+  int initialized = 0, finalized = 0;
+  MPI_Initialized(&initialized);
+  MPI_Finalized(&finalized);
+  return initialized && !finalized;
+#else
+  return false;
+#endif
+}
+
+enum class ErrorKind : int { none = 0, numerical = 1, input = 2, other = 3 };
+
+[[maybe_unused]] ErrorKind kind_of(const std::exception_ptr& error, std::string& message) {
+  try {
+    std::rethrow_exception(error);
+  } catch (const NumericalError& e) {
+    message = e.what();
+    return ErrorKind::numerical;
+  } catch (const InputError& e) {
+    message = e.what();
+    return ErrorKind::input;
+  } catch (const std::exception& e) {
+    message = e.what();
+    return ErrorKind::other;
+  } catch (...) {
+    message = "unknown error";
+    return ErrorKind::other;
+  }
+}
+
+}  // namespace
+
+void use_single_process() { single_process = true; }
+
+DistributedSession::DistributedSession(int* argc, char*** argv) {
+#ifdef SIGMATUBE_WITH_MPI
+  int initialized = 0;
+  MPI_Initialized(&initialized);
+  if (!initialized) {
+    int provided = 0;
+    MPI_Init_thread(argc, argv, MPI_THREAD_FUNNELED, &provided);
+    owns_ = true;
+  }
+#else
+  (void)argc;
+  (void)argv;
+#endif
+}
+
+DistributedSession::~DistributedSession() {
+#ifdef SIGMATUBE_WITH_MPI
+  int finalized = 0;
+  MPI_Finalized(&finalized);
+  if (owns_ && !finalized) MPI_Finalize();
+#endif
+}
+
+int process_rank() {
+#ifdef SIGMATUBE_WITH_MPI
+  if (mpi_active()) {
+    int rank = 0;
+    MPI_Comm_rank(MPI_COMM_WORLD, &rank);
+    return rank;
+  }
+#endif
+  return 0;
+}
+
+int process_count() {
+#ifdef SIGMATUBE_WITH_MPI
+  if (mpi_active()) {
+    int size = 1;
+    MPI_Comm_size(MPI_COMM_WORLD, &size);
+    return size;
+  }
+#endif
+  return 1;
+}
+
+std::pair<std::size_t, std::size_t> rank_block(std::size_t count, int rank, int size) {
+  if (size <= 0 || rank < 0 || rank >= size) throw std::logic_error("rank_block: bad rank or size");
+  // 128-bit products: count·rank cannot overflow.
+  const auto at = [&](int r) {
+    return static_cast<std::size_t>(static_cast<unsigned __int128>(count) * static_cast<unsigned>(r) /
+                                    static_cast<unsigned>(size));
+  };
+  return {at(rank), at(rank + 1)};
+}
+
+void run_distributed_rows(std::size_t count, std::size_t width, std::size_t chunk, int threads,
+                          const RowBlockFill& fill, double* all) {
+  if (count == 0) return;
+  if (width == 0 || !fill || all == nullptr) throw std::logic_error("run_distributed_rows: bad arguments");
+  const int rank = process_rank(), size = process_count();
+  const auto [begin, end] = rank_block(count, rank, size);
+
+  // Local block, chunked; the lowest failing chunk's exception is kept.
+  std::mutex mutex;
+  std::size_t error_at = count;
+  std::exception_ptr error;
+  parallel_for_chunks(end - begin, std::max<std::size_t>(chunk, 1), threads, [&](std::size_t b, std::size_t e) {
+    try {
+      fill(begin + b, begin + e, all + (begin + b) * width);
+    } catch (...) {
+      std::lock_guard<std::mutex> lock(mutex);
+      if (begin + b < error_at) {
+        error_at = begin + b;
+        error = std::current_exception();
+      }
+    }
+  });
+
+  if (size == 1) {
+    if (error) std::rethrow_exception(error);
+    return;
+  }
+#ifdef SIGMATUBE_WITH_MPI
+  // Agree on the lowest failing job, then its owner tells everybody what failed.
+  unsigned long long local = error_at, lowest = 0;
+  MPI_Allreduce(&local, &lowest, 1, MPI_UNSIGNED_LONG_LONG, MPI_MIN, MPI_COMM_WORLD);
+  if (lowest < count) {
+    int owner = 0;
+    while (owner + 1 < size && rank_block(count, owner + 1, size).first <= lowest) ++owner;
+    std::string message;
+    int kind = static_cast<int>(ErrorKind::none);
+    if (rank == owner) kind = static_cast<int>(kind_of(error, message));
+    int length = static_cast<int>(message.size());
+    MPI_Bcast(&kind, 1, MPI_INT, owner, MPI_COMM_WORLD);
+    MPI_Bcast(&length, 1, MPI_INT, owner, MPI_COMM_WORLD);
+    message.resize(static_cast<std::size_t>(length));
+    if (length > 0) MPI_Bcast(message.data(), length, MPI_CHAR, owner, MPI_COMM_WORLD);
+    if (rank == owner) std::rethrow_exception(error);
+    switch (static_cast<ErrorKind>(kind)) {
+      case ErrorKind::numerical: throw NumericalError(message);
+      case ErrorKind::input: throw InputError(message);
+      default: throw std::runtime_error(message);
+    }
+  }
+  std::vector<int> counts(static_cast<std::size_t>(size)), offsets(static_cast<std::size_t>(size));
+  for (int r = 0; r < size; ++r) {
+    const auto [b, e] = rank_block(count, r, size);
+    if ((e - b) * width > static_cast<std::size_t>(INT_MAX) || b * width > static_cast<std::size_t>(INT_MAX))
+      throw std::logic_error("run_distributed_rows: block too large for one MPI message");
+    counts[static_cast<std::size_t>(r)] = static_cast<int>((e - b) * width);
+    offsets[static_cast<std::size_t>(r)] = static_cast<int>(b * width);
+  }
+  MPI_Allgatherv(MPI_IN_PLACE, 0, MPI_DATATYPE_NULL, all, counts.data(), offsets.data(), MPI_DOUBLE, MPI_COMM_WORLD);
+#else
+  if (error) std::rethrow_exception(error);
+#endif
+}
+
+}  // namespace sigmatube

@@ -13,7 +13,8 @@ build="${SIGMATUBE_BUILD_DIR:-$root/build}"
 jobs="$(nproc 2>/dev/null || echo 2)"
 
 packages=(cmake g++ make libeigen3-dev libboost-dev libhdf5-dev libcli11-dev libtomlplusplus-dev
-          libmuparser-dev libgtest-dev libbenchmark-dev python3-scipy python3-h5py hdf5-tools)
+          libmuparser-dev libgtest-dev libbenchmark-dev python3-scipy python3-h5py hdf5-tools
+          openmpi-bin libopenmpi-dev)
 missing=()
 for p in "${packages[@]}"; do
   dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")

@@ -4,6 +4,8 @@
 
 #include <gtest/gtest.h>
 
+#include "python_reference.h"
+
 #include <cmath>
 #include <cstdio>
 #include <memory>
@@ -18,15 +20,7 @@ namespace {
 // cephes-based incbi) agree to about 1e-14; 1e-10 leaves room for either's tolerance.
 constexpr double kAgreement = 1e-10;
 
-std::string run_python(const std::string& code) {
-  const std::string command = std::string(SIGMATUBE_PYTHON) + " -c \"" + code + "\"";
-  std::unique_ptr<FILE, int (*)(FILE*)> pipe(popen(command.c_str(), "r"), pclose);
-  if (!pipe) return "";
-  std::string out;
-  char buffer[256];
-  while (fgets(buffer, sizeof buffer, pipe.get())) out += buffer;
-  return out;
-}
+std::string run_python(const std::string& code) { return sigmatube::test::python_output(code); }
 
 struct Case {
   long long k, n;

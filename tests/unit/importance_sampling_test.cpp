@@ -5,6 +5,8 @@
 
 #include <gtest/gtest.h>
 
+#include "python_reference.h"
+
 #include <boost/math/distributions/normal.hpp>
 #include <cmath>
 #include <cstdio>
@@ -18,15 +20,7 @@ constexpr double kDesignPointTolerance = 1e-6;
 
 const boost::math::normal_distribution<double> kNormal(0.0, 1.0);
 
-std::string run_python(const std::string& code) {
-  const std::string command = std::string(SIGMATUBE_PYTHON) + " -c \"" + code + "\"";
-  std::unique_ptr<FILE, int (*)(FILE*)> pipe(popen(command.c_str(), "r"), pclose);
-  if (!pipe) return "";
-  std::string out;
-  char buffer[256];
-  while (fgets(buffer, sizeof buffer, pipe.get())) out += buffer;
-  return out;
-}
+std::string run_python(const std::string& code) { return sigmatube::test::python_output(code); }
 
 // The "full model": two report times, one output "g" = limit state (+1 at the second
 // time, so the path minimum is the first time's value).

@@ -37,4 +37,17 @@ inline std::vector<double> python_numbers(const std::string& program) {
   return numbers;
 }
 
+/// Standard output of `python3 -c "<code>"` (SIGMATUBE_PYTHON); "" if it cannot start.
+/// `code` must not contain double quotes.
+inline std::string python_output(const std::string& code) {
+  const std::string command = std::string(SIGMATUBE_PYTHON) + " -c \"" + code + "\"";
+  FILE* pipe = ::popen(command.c_str(), "r");
+  if (!pipe) return "";
+  std::string out;
+  char buffer[256];
+  while (std::fgets(buffer, sizeof buffer, pipe)) out += buffer;
+  ::pclose(pipe);
+  return out;
+}
+
 }  // namespace sigmatube::test

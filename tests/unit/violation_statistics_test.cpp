@@ -6,6 +6,8 @@
 
 #include <gtest/gtest.h>
 
+#include "python_reference.h"
+
 #include <algorithm>
 #include <boost/math/distributions/non_central_chi_squared.hpp>
 #include <cmath>
@@ -19,15 +21,7 @@ namespace sigmatube::constraints {
 namespace {
 using casefile::ConstraintKind;
 
-std::string run_python(const std::string& code) {
-  const std::string command = std::string(SIGMATUBE_PYTHON) + " -c \"" + code + "\"";
-  std::unique_ptr<FILE, int (*)(FILE*)> pipe(popen(command.c_str(), "r"), pclose);
-  if (!pipe) return "";
-  std::string out;
-  char buffer[256];
-  while (fgets(buffer, sizeof buffer, pipe.get())) out += buffer;
-  return out;
-}
+std::string run_python(const std::string& code) { return sigmatube::test::python_output(code); }
 
 // Position p(t) = m(t) + σ z, z ~ N(0, I₃) from CounterRng, on T report times.
 struct GaussianPoints {

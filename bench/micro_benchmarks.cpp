@@ -27,11 +27,12 @@ const app::LoadedCase& tracking_case(bool expression) {
   return expression ? expr : builtin;
 }
 
-// One RK4 step of the HCW model through the integrator's public entry point
-// (report times {0, h}: exactly one step, plus the two observer calls).
-void BM_Rk4StepHcw(benchmark::State& state) {
+// One integrator step of the HCW model through the integrator's public entry
+// point (report times {0, h}, h the step or the largest step: exactly one step,
+// plus the two observer calls).
+void integrator_step_hcw(benchmark::State& state, casefile::IntegratorKind kind) {
   casefile::SimulationOptions options;
-  options.integrator = casefile::IntegratorKind::rk4;
+  options.integrator = kind;
   options.step_in_seconds = 1.0;
   model::OdeIntegrator integrator(options, 6);
   const model::HillClohessyWiltshire hcw;
@@ -46,26 +47,11 @@ void BM_Rk4StepHcw(benchmark::State& state) {
     benchmark::DoNotOptimize(x);
   }
 }
+
+void BM_Rk4StepHcw(benchmark::State& state) { integrator_step_hcw(state, casefile::IntegratorKind::rk4); }
 BENCHMARK(BM_Rk4StepHcw);
 
-// One dopri5 step (report times {0, h} with h the largest step).
-void BM_Dopri5StepHcw(benchmark::State& state) {
-  casefile::SimulationOptions options;
-  options.integrator = casefile::IntegratorKind::dopri5;
-  options.step_in_seconds = 1.0;
-  model::OdeIntegrator integrator(options, 6);
-  const model::HillClohessyWiltshire hcw;
-  const double p[1] = {0.00113}, u[3] = {0.0, 0.0, 0.0};
-  const std::vector<double> times{0.0, 1.0};
-  const model::OdeIntegrator::Rhs f = [&](double t, const double* x, double* dxdt) { hcw.rhs(t, x, u, p, dxdt); };
-  const model::OdeIntegrator::Observer observe = [](std::size_t, double, const double*) {};
-  double x[6];
-  for (auto _ : state) {
-    for (int i = 0; i < 6; ++i) x[i] = 1.0 + i;
-    integrator.integrate(f, times, x, observe);
-    benchmark::DoNotOptimize(x);
-  }
-}
+void BM_Dopri5StepHcw(benchmark::State& state) { integrator_step_hcw(state, casefile::IntegratorKind::dopri5); }
 BENCHMARK(BM_Dopri5StepHcw);
 
 // Basis matrix of a batch of germ points: 8 dimensions (the demo's germ size),

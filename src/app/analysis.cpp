@@ -127,6 +127,41 @@ std::string reformulation_note(const std::vector<constraints::ReformulationDisag
   return out.str();
 }
 
+// Columns t·n_out + o of every output the constraints read, at every report time.
+std::vector<int> constraint_columns(const std::vector<constraints::Constraint>& list, int n_times, int n_out) {
+  std::vector<char> used(static_cast<std::size_t>(n_out), 0);
+  for (const auto& c : list)
+    for (int o : c.output_indices()) used[static_cast<std::size_t>(o)] = 1;
+  std::vector<int> columns;
+  for (int t = 0; t < n_times; ++t)
+    for (int o = 0; o < n_out; ++o)
+      if (used[static_cast<std::size_t>(o)]) columns.push_back(t * n_out + o);
+  return columns;
+}
+
+// Germ points (rows) for standard-normal points z (rows).
+Eigen::MatrixXd germ_points(const germ::Germ& germ, const Eigen::MatrixXd& z) {
+  const int d = germ.dimension();
+  Eigen::MatrixXd xi(z.rows(), d);
+  std::vector<double> zi(static_cast<std::size_t>(d)), x(static_cast<std::size_t>(d));
+  for (Eigen::Index i = 0; i < z.rows(); ++i) {
+    for (int j = 0; j < d; ++j) zi[static_cast<std::size_t>(j)] = z(i, j);
+    if (d > 0) germ.from_standard_normal(zi.data(), x.data());
+    for (int j = 0; j < d; ++j) xi(i, j) = x[static_cast<std::size_t>(j)];
+  }
+  return xi;
+}
+
+// Surrogate outputs at germ points in the [N, T·n_out] layout of a model run,
+// only `columns` evaluated (the others 0: no constraint reads them).
+void surrogate_outputs(const expansion::Surrogate& surrogate, const Eigen::MatrixXd& points,
+                       const std::vector<int>& columns, Eigen::MatrixXd& Y) {
+  Eigen::MatrixXd values;
+  surrogate.evaluate(points, values, columns);
+  Y.setZero(points.rows(), static_cast<Eigen::Index>(surrogate.n_times) * surrogate.n_outputs);
+  for (std::size_t k = 0; k < columns.size(); ++k) Y.col(columns[k]) = values.col(static_cast<Eigen::Index>(k));
+}
+
 // Surrogate points screened for the start of the design-point search.
 constexpr long long kDesignPointScreening = 20000;
 constexpr unsigned long long kScreeningStream = 0xD1B54A32D192ED03ULL;
@@ -141,20 +176,11 @@ result::ImportanceSamplingResult rare_event_estimate(const LoadedCase& loaded, c
   const auto& germ = *loaded.germ;
   const int d = germ.dimension();
   const int n_out = surrogate.n_outputs;
-  std::vector<int> columns;
-  for (int t = 0; t < surrogate.n_times; ++t)
-    for (int o = 0; o < n_out; ++o) columns.push_back(t * n_out + o);
+  const std::vector<int> columns = constraint_columns({constraint}, surrogate.n_times, n_out);
   // Path-minimum clearance of the surrogate at standard-normal points z (rows).
   const auto path_minimum = [&](const Eigen::MatrixXd& z) {
-    Eigen::MatrixXd xi(z.rows(), d);
-    for (Eigen::Index i = 0; i < z.rows(); ++i) {
-      const Eigen::RowVectorXd zi = z.row(i);
-      Eigen::RowVectorXd x(d);
-      germ.from_standard_normal(zi.data(), x.data());
-      xi.row(i) = x;
-    }
     Eigen::MatrixXd Y;
-    surrogate.evaluate(xi, Y);
+    surrogate_outputs(surrogate, germ_points(germ, z), columns, Y);
     Eigen::VectorXd minimum(z.rows());
     constraints::ViolationStatistics::path_minimum(constraint, times, n_out, Y, minimum);
     return minimum;
@@ -272,15 +298,7 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
   const auto& constraint_list = loaded.constraints;
   constraints::ViolationResults surrogate_violations;
   if (!constraint_list.empty()) {
-    std::vector<int> columns;
-    {
-      std::vector<char> used(static_cast<std::size_t>(n_out), 0);
-      for (const auto& c : constraint_list)
-        for (int o : c.output_indices()) used[static_cast<std::size_t>(o)] = 1;
-      for (int t = 0; t < n_times; ++t)
-        for (int o = 0; o < n_out; ++o)
-          if (used[static_cast<std::size_t>(o)]) columns.push_back(t * n_out + o);
-    }
+    const std::vector<int> columns = constraint_columns(constraint_list, n_times, n_out);
     const CounterRng rng(mc_options.seed ^ kSurrogateStream);
     ProgressBar bar("surrogate sampling", static_cast<std::size_t>(samples), options.progress && d > 0);
     std::atomic<long long> sampled{0};
@@ -288,17 +306,11 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
         constraint_list, times, n_out, samples, kSurrogateChunk, threads,
         [&](long long begin, long long end, Eigen::MatrixXd& Y) {
           const Eigen::Index n = static_cast<Eigen::Index>(end - begin);
-          Eigen::MatrixXd points(n, d);
-          std::vector<double> z(static_cast<std::size_t>(d)), xi(static_cast<std::size_t>(d));
-          for (Eigen::Index i = 0; i < n; ++i) {
-            for (int j = 0; j < d; ++j) z[static_cast<std::size_t>(j)] = rng.normal(static_cast<std::uint64_t>(begin + i), static_cast<std::uint64_t>(j));
-            if (d > 0) germ.from_standard_normal(z.data(), xi.data());
-            for (int j = 0; j < d; ++j) points(i, j) = xi[static_cast<std::size_t>(j)];
-          }
-          Eigen::MatrixXd values;
-          surrogate.evaluate(points, values, columns);
-          Y.setZero(n, static_cast<Eigen::Index>(n_times) * n_out);
-          for (std::size_t k = 0; k < columns.size(); ++k) Y.col(columns[k]) = values.col(static_cast<Eigen::Index>(k));
+          Eigen::MatrixXd z(n, d);
+          for (Eigen::Index i = 0; i < n; ++i)
+            for (int j = 0; j < d; ++j)
+              z(i, j) = rng.normal(static_cast<std::uint64_t>(begin + i), static_cast<std::uint64_t>(j));
+          surrogate_outputs(surrogate, germ_points(germ, z), columns, Y);
           bar.update(static_cast<std::size_t>(sampled += n));
         });
     bar.finish();

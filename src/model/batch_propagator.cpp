@@ -255,16 +255,9 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
     }
     if (disturbed) {
       // Piecewise linear between report times, held outside (as ClosedLoop::run).
-      Eigen::Index k = 0;
-      double w = 0.0;
-      if (t >= times.back()) {
-        k = T - 1;
-      } else if (t > times.front()) {
-        k = static_cast<Eigen::Index>(std::upper_bound(times.begin(), times.end(), t) - times.begin()) - 1;
-        w = (t - times[static_cast<std::size_t>(k)]) /
-            (times[static_cast<std::size_t>(k) + 1] - times[static_cast<std::size_t>(k)]);
-      }
-      const Eigen::Index k1i = std::min<Eigen::Index>(k + 1, T - 1);
+      const GridSegment g = grid_segment(times, t);
+      const Eigen::Index k = g.k, k1i = g.k1;
+      const double w = g.w;
       for (int i = 0; i < n; ++i) {
         const double* d0 = dist.data() + (static_cast<std::size_t>(k) * n + i) * L;
         const double* d1 = dist.data() + (static_cast<std::size_t>(k1i) * n + i) * L;

@@ -112,19 +112,9 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
     model_->rhs(t, state, u_app.data(), p, dxdt);
     if (disturbed) {
       // Piecewise linear between report times, held constant outside.
-      const auto& times = report_times_;
-      Eigen::Index k = 0;
-      double w = 0.0;
-      if (t >= times.back()) {
-        k = T - 1;
-      } else if (t > times.front()) {
-        k = static_cast<Eigen::Index>(std::upper_bound(times.begin(), times.end(), t) - times.begin()) - 1;
-        w = (t - times[static_cast<std::size_t>(k)]) /
-            (times[static_cast<std::size_t>(k) + 1] - times[static_cast<std::size_t>(k)]);
-      }
-      const Eigen::Index k1 = std::min<Eigen::Index>(k + 1, T - 1);
+      const GridSegment g = grid_segment(report_times_, t);
       for (int i = 0; i < n; ++i)
-        dxdt[i] += (1.0 - w) * perturbation.disturbance(k, i) + w * perturbation.disturbance(k1, i);
+        dxdt[i] += (1.0 - g.w) * perturbation.disturbance(g.k, i) + g.w * perturbation.disturbance(g.k1, i);
     }
   };
 
@@ -146,6 +136,20 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
   x = plan_->reference_state(report_times_.front()) + perturbation.initial_offset;
   OdeIntegrator integrator(simulation_, n);
   integrator.integrate(rhs, report_times_, x.data(), observe, sample, &model_->state_names());
+}
+
+GridSegment grid_segment(const std::vector<double>& times, double t) {
+  const auto T = static_cast<Eigen::Index>(times.size());
+  GridSegment g;
+  if (t >= times.back()) {
+    g.k = T - 1;
+  } else if (t > times.front()) {
+    g.k = static_cast<Eigen::Index>(std::upper_bound(times.begin(), times.end(), t) - times.begin()) - 1;
+    g.w = (t - times[static_cast<std::size_t>(g.k)]) /
+          (times[static_cast<std::size_t>(g.k) + 1] - times[static_cast<std::size_t>(g.k)]);
+  }
+  g.k1 = std::min<Eigen::Index>(g.k + 1, T - 1);
+  return g;
 }
 
 }  // namespace sigmatube::model

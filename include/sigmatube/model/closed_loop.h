@@ -32,6 +32,15 @@ struct Perturbation {
   Eigen::MatrixXd disturbance;
 };
 
+/// Where t falls on a grid for piecewise-linear interpolation, values held
+/// constant outside it: v(t) = (1 − w)·v[k] + w·v[k1].
+struct GridSegment {
+  Eigen::Index k = 0;
+  Eigen::Index k1 = 0;
+  double w = 0.0;
+};
+GridSegment grid_segment(const std::vector<double>& times, double t);
+
 class Plan;        // model/plan.h
 class Controller;  // model/controller.h
 

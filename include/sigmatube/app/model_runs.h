@@ -13,6 +13,7 @@
 #include "sigmatube/app/case_loader.h"
 #include "sigmatube/model/batch_propagator.h"
 
+// Layer app/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::app {
 
 class ModelRunner {

@@ -69,20 +69,6 @@ expansion::ModelEvaluator design_runs(const ModelRunner& runner, Eigen::Index wi
   };
 }
 
-/// One full-model run at a germ point for the Monte Carlo and importance
-/// sampling stages: false (and the message) when the run diverges.
-montecarlo::RunSample full_model_run(const ModelRunner& runner) {
-  return [&runner](const double* xi, long long sample, double* outputs, std::string* error) {
-    try {
-      runner.run_one(xi, sample, outputs);
-      return true;
-    } catch (const NumericalError& e) {
-      if (error) *error = e.what();
-      return false;
-    }
-  };
-}
-
 /// Each wave of Monte Carlo runs goes over ranks and threads; the accumulators
 /// then see the same rows in the same order on every rank.
 montecarlo::MonteCarloRunOptions montecarlo_run_options(const LoadedCase& loaded, const ModelRunner& runner,
@@ -135,7 +121,7 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
   result::add_constraints(r, constraint_list, sampled, constraints::assess_constraints(constraint_list, sampled, times));
 
   if (mc_options.runs > 0 && d > 0) {
-    const montecarlo::RunSample run_sample = full_model_run(runner);
+    const montecarlo::RunSample run_sample = runner.run_sample();
 
     // 4. Monte Carlo cross-check with the full model (montecarlo/cross_check.h).
     ProgressBar bar("Monte Carlo runs", static_cast<std::size_t>(mc_options.runs), options.progress);

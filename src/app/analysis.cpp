@@ -21,6 +21,7 @@
 #include "sigmatube/montecarlo/agreement.h"
 #include "sigmatube/montecarlo/importance_sampling.h"
 #include "sigmatube/montecarlo/monte_carlo.h"
+#include "sigmatube/montecarlo/verdict.h"
 
 namespace sigmatube::app {
 namespace {
@@ -47,6 +48,7 @@ result::AnalysisResult base_result(const LoadedCase& loaded, const char* command
   result::AnalysisResult r;
   r.tool_version = SIGMATUBE_VERSION;
   r.case_sha256 = loaded.case_sha256;
+  r.inputs_sha256 = loaded.inputs_sha256;
   r.created_utc = utc_now();
   r.seed = loaded.options.montecarlo.seed;
   r.title = loaded.options.title;
@@ -170,7 +172,8 @@ constexpr unsigned long long kScreeningStream = 0xD1B54A32D192ED03ULL;
 /// importance sampling of the full model around it.
 result::ImportanceSamplingResult rare_event_estimate(const LoadedCase& loaded, const expansion::Surrogate& surrogate,
                                                      const constraints::Constraint& constraint,
-                                                     const Eigen::VectorXd& times, unsigned long long seed,
+                                                     const Eigen::VectorXd& times,
+                                                     const casefile::MonteCarloOptions& mc_options,
                                                      const AnalysisOptions& options, int threads,
                                                      const montecarlo::RunSample& run_sample) {
   const auto& germ = *loaded.germ;
@@ -185,6 +188,7 @@ result::ImportanceSamplingResult rare_event_estimate(const LoadedCase& loaded, c
     constraints::ViolationStatistics::path_minimum(constraint, times, n_out, Y, minimum);
     return minimum;
   };
+  const unsigned long long seed = mc_options.seed;
   const CounterRng rng(seed ^ kScreeningStream);
   Eigen::MatrixXd screen(kDesignPointScreening, d);
   for (Eigen::Index i = 0; i < screen.rows(); ++i)
@@ -196,7 +200,8 @@ result::ImportanceSamplingResult rare_event_estimate(const LoadedCase& loaded, c
   };
   const montecarlo::MostProbablePoint mpp = montecarlo::find_most_probable_point(g, d, start);
   montecarlo::ImportanceSamplingOptions is_options;
-  is_options.samples = options.importance_sampling_runs;
+  is_options.samples = options.importance_sampling_runs > 0 ? options.importance_sampling_runs : mc_options.rare_event_runs;
+  is_options.cov_target = mc_options.cov_target;
   is_options.seed = seed;
   is_options.confidence = loaded.options.montecarlo.confidence;
   is_options.threads = threads;
@@ -211,7 +216,30 @@ result::ImportanceSamplingResult rare_event_estimate(const LoadedCase& loaded, c
   out.interval[1] = is.upper;
   out.effective_sample_size = is.effective_sample_size;
   out.design_point_distance = mpp.beta;
+  out.coefficient_of_variation = is.coefficient_of_variation;
+  out.cov_target = is_options.cov_target;
+  out.converged = is.converged;
+  out.failed_runs = is.failed_samples;
+  out.pessimistic_probability = is.pessimistic_probability;
   return out;
+}
+
+void fill_paired(const montecarlo::ConstraintAgreement& a, const montecarlo::ConstraintMonteCarlo& mc,
+                 result::MonteCarloConstraint& out) {
+  out.path_interval_failures_safe[0] = mc.path_interval_failures_safe.lower;
+  out.path_interval_failures_safe[1] = mc.path_interval_failures_safe.upper;
+  out.path_interval_failures_violating[0] = mc.path_interval_failures_violating.lower;
+  out.path_interval_failures_violating[1] = mc.path_interval_failures_violating.upper;
+  out.pessimistic_probability = a.time_index < 0 ? mc.pessimistic_path_probability : mc.pessimistic_pointwise_probability;
+  out.compared_runs = a.compared_runs;
+  out.surrogate_only = a.surrogate_only;
+  out.model_only = a.model_only;
+  out.compared_time_index = a.time_index;
+  out.paired_difference = a.difference.estimate;
+  out.paired_interval[0] = a.difference.lower;
+  out.paired_interval[1] = a.difference.upper;
+  out.mcnemar_p = a.mcnemar_p;
+  out.holm_p = a.holm_p;
 }
 
 }  // namespace
@@ -423,32 +451,54 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
       c.montecarlo.path_interval[0] = mcc.path_interval.lower;
       c.montecarlo.path_interval[1] = mcc.path_interval.upper;
     }
-    const montecarlo::Agreement agreement =
-        montecarlo::assess_agreement(surrogate_violations, mc, mc.saturation_fraction);
+    montecarlo::AgreementOptions agreement_options;
+    agreement_options.false_alarm_level = mc_options.false_alarm_level;
+    agreement_options.relative_tolerance = mc_options.relative_tolerance;
+    for (const auto& constraint : constraint_list) agreement_options.constraint_outputs.push_back(constraint.output_indices());
+    agreement_options.output_names = r.output_names;
+    agreement_options.times = times;
+    const montecarlo::Agreement agreement = montecarlo::assess_agreement(surrogate_violations, mc, agreement_options);
     m.agreement = montecarlo::to_string(agreement.overall);
-    m.agreement_cause = agreement.summary;
+    m.agreement_cause = agreement.cause;
+    m.agreement_details = agreement.summary;
+    m.false_alarm_level = mc_options.false_alarm_level;
+    m.relative_tolerance = mc_options.relative_tolerance;
     for (std::size_t k = 0; k < r.constraints.size(); ++k) {
-      r.constraints[k].agreement = montecarlo::to_string(agreement.constraints[k].verdict);
-      r.constraints[k].agreement_cause =
-          agreement.constraints[k].cause.empty() ? agreement.constraints[k].note : agreement.constraints[k].cause;
+      const auto& a = agreement.constraints[k];
+      auto& c = r.constraints[k];
+      c.agreement = montecarlo::to_string(a.verdict);
+      c.agreement_cause = a.cause.empty() ? a.note : a.cause;
+      fill_paired(a, mc.constraints[k], c.montecarlo);
     }
 
     // 4. Rare events: a crude Monte Carlo of a few thousand runs cannot resolve a
     // bound ≤ 1e-4, so the full model is importance-sampled around the design point.
+    // The verdict then weighs all evidence (montecarlo/verdict.h): a rare-event
+    // estimate refines it, never overrules a violation the surrogate or the runs show.
     for (std::size_t k = 0; k < r.constraints.size(); ++k) {
       auto& c = r.constraints[k];
-      if (c.max_probability > options.importance_sampling_threshold) continue;
-      c.importance_sampling = rare_event_estimate(loaded, surrogate, constraint_list[k], times, mc_options.seed,
-                                                  options, threads, run_sample);
-      // The full-model estimate governs the verdict of a rare-event bound.
-      c.within_bound = c.importance_sampling.probability <= c.max_probability;
-      std::ostringstream verdict;
-      verdict << (c.within_bound ? "meets " : "exceeds: ") << "importance sampling p = "
-              << c.importance_sampling.probability << " [" << c.importance_sampling.interval[0] << ", "
-              << c.importance_sampling.interval[1] << "] vs bound " << c.max_probability << " ("
-              << c.importance_sampling.runs << " full-model runs, ESS "
-              << static_cast<long long>(c.importance_sampling.effective_sample_size) << "); surrogate: " << c.verdict;
-      c.verdict = verdict.str();
+      montecarlo::BoundEvidence evidence;
+      evidence.max_probability = c.max_probability;
+      evidence.surrogate_probability = surrogate_violations.constraints[k].governing_probability();
+      evidence.surrogate_within = c.within_bound;
+      evidence.has_montecarlo = true;
+      const auto& mcc = mc.constraints[k];
+      const bool path = constraint_list[k].scope() == casefile::ConstraintScope::path;
+      evidence.montecarlo_pessimistic = path ? mcc.pessimistic_path_probability : mcc.pessimistic_pointwise_probability;
+      evidence.montecarlo_violations = path ? mcc.path_violations : agreement.constraints[k].montecarlo_violations;
+      evidence.montecarlo_failed = mc.failed_runs;
+      evidence.montecarlo_runs = mc.successful_runs + mc.failed_runs;
+      if (c.max_probability <= options.importance_sampling_threshold) {
+        c.importance_sampling = rare_event_estimate(loaded, surrogate, constraint_list[k], times, mc_options,
+                                                    options, threads, run_sample);
+        const auto& is = c.importance_sampling;
+        evidence.rare_event = montecarlo::RareEventEvidence{is.probability, is.pessimistic_probability, is.interval[0],
+                                                            is.interval[1], is.coefficient_of_variation,
+                                                            is.effective_sample_size, is.runs, is.converged};
+      }
+      const montecarlo::BoundVerdict verdict = montecarlo::decide_bound(evidence, c.verdict);
+      c.within_bound = verdict.within;
+      c.verdict = verdict.line;
     }
   }
   return r;

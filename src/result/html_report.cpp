@@ -460,12 +460,13 @@ std::string summary_table(const AnalysisResult& r) {
          "num");
     cell(format_value(c.margin), "num");
     cell(format_value(c.worst_time), "num");
-    int g = 0, ct = 0;
-    for (auto f : c.gaussian_ok) g += f ? 1 : 0;
-    for (auto f : c.cantelli_ok) ct += f ? 1 : 0;
+    // Counted over the report times in the window, like the text summary.
+    int g = 0, gt = 0, ct = 0, ctt = 0;
+    window_flag_counts(c, r.time, c.gaussian_ok, &g, &gt);
+    window_flag_counts(c, r.time, c.cantelli_ok, &ct, &ctt);
     cell(c.gaussian_ok.empty() ? std::string(kMissingValue)
-                               : std::to_string(g) + "/" + std::to_string(c.gaussian_ok.size()) + " · " +
-                                     std::to_string(ct) + "/" + std::to_string(c.cantelli_ok.size()),
+                               : std::to_string(g) + "/" + std::to_string(gt) + " · " + std::to_string(ct) + "/" +
+                                     std::to_string(ctt),
          "num");
     cell(
         c.agreement.empty() ? kMissingValue : c.agreement + (c.agreement_cause.empty() ? "" : ": " + c.agreement_cause),

@@ -38,6 +38,7 @@ std::string json_summary(const AnalysisResult& r) {
   o << "  \"title\": " << json_string(r.title) << ",\n";
   o << "  \"case_path\": " << json_string(r.case_path) << ",\n";
   o << "  \"case_sha256\": " << json_string(r.case_sha256) << ",\n";
+  o << "  \"inputs_sha256\": " << json_string(r.inputs_sha256) << ",\n";
   o << "  \"created_utc\": " << json_string(r.created_utc) << ",\n";
   o << "  \"tool_version\": " << json_string(r.tool_version) << ",\n";
   o << "  \"seed\": " << r.seed << ",\n";

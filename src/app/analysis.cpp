@@ -488,7 +488,10 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
       evidence.montecarlo_violations = path ? mcc.path_violations : agreement.constraints[k].montecarlo_violations;
       evidence.montecarlo_failed = mc.failed_runs;
       evidence.montecarlo_runs = mc.successful_runs + mc.failed_runs;
-      if (c.max_probability <= options.importance_sampling_threshold) {
+      // Rare-event sampling can only refine a verdict: where the surrogate or the runs
+      // already show a violation it is not spent.
+      const bool shown = !evidence.surrogate_within || evidence.montecarlo_pessimistic > c.max_probability;
+      if (c.max_probability <= options.importance_sampling_threshold && !shown) {
         c.importance_sampling = rare_event_estimate(loaded, surrogate, constraint_list[k], times, mc_options,
                                                     options, threads, run_sample);
         const auto& is = c.importance_sampling;
@@ -499,6 +502,8 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
       const montecarlo::BoundVerdict verdict = montecarlo::decide_bound(evidence, c.verdict);
       c.within_bound = verdict.within;
       c.verdict = verdict.line;
+      if (c.max_probability <= options.importance_sampling_threshold && shown)
+        c.verdict += "; importance sampling not run: the violation is already shown";
     }
   }
   return r;

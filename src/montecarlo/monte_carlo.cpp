@@ -64,7 +64,7 @@ std::string MonteCarloResult::summary() const {
   std::ostringstream out;
   out << "Monte Carlo: " << successful_runs << " of " << runs << " runs succeeded";
   if (failed_runs > 0) {
-    out << "; " << failed_runs << " failed and are excluded from every statistic";
+    out << "; " << failed_runs << " failed: excluded from moments and validation, counted as unknown in probabilities";
     for (const auto& [sample, message] : first_failures) out << "\n  run " << sample << ": " << message;
   }
   for (const auto& c : constraints) {

@@ -429,7 +429,7 @@ std::string summary_table(const AnalysisResult& r) {
   const int percent = int(std::lround(100 * r.montecarlo.confidence));
   o << "<table class=\"summary\">\n<thead><tr><th>constraint</th><th>type</th><th>scope</th><th>bound</th>"
     << "<th>surrogate P ± s.e.</th><th>Monte Carlo P [" << percent
-    << "% CI]</th><th>importance sampling P [CI], ESS</th>"
+    << "% CI]</th><th>importance sampling P [CI], ESS, CoV</th>"
     << "<th>margin</th><th>worst time [s]</th><th>Gaussian / "
        "Cantelli</th><th>agreement</th><th>verdict</th></tr></thead>\n<tbody>\n";
   for (const auto& c : r.constraints) {
@@ -455,7 +455,11 @@ std::string summary_table(const AnalysisResult& r) {
     }
     const auto& is = c.importance_sampling;
     cell(is.done ? format_probability(is.probability) + " [" + format_probability(is.interval[0]) + ", " +
-                       format_probability(is.interval[1]) + "], " + format_value(is.effective_sample_size, 3)
+                       format_probability(is.interval[1]) + "], " + format_value(is.effective_sample_size, 3) +
+                       (std::isnan(is.coefficient_of_variation)
+                            ? std::string()
+                            : ", CoV " + format_value(is.coefficient_of_variation, 2) +
+                                  (is.converged ? "" : " (target not met: no verdict)"))
                  : std::string(kMissingValue),
          "num");
     cell(format_value(c.margin), "num");

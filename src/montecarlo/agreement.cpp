@@ -1,4 +1,5 @@
 // SPDX-License-Identifier: MIT
+#include "sigmatube/montecarlo/short_number.h"
 #include "sigmatube/montecarlo/agreement.h"
 
 #include <algorithm>
@@ -9,11 +10,7 @@
 
 namespace sigmatube::montecarlo {
 namespace {
-std::string g(double value) {
-  char buffer[48];
-  std::snprintf(buffer, sizeof buffer, "%.3g", value);
-  return buffer;
-}
+std::string g(double value) { return short_number(value); }
 
 std::string output_name(const AgreementOptions& options, int o) {
   if (o >= 0 && static_cast<std::size_t>(o) < options.output_names.size()) return options.output_names[static_cast<std::size_t>(o)];

@@ -1,4 +1,5 @@
 // SPDX-License-Identifier: MIT
+#include "sigmatube/montecarlo/short_number.h"
 #include "sigmatube/montecarlo/monte_carlo.h"
 
 #include "sigmatube/core/running_moments.h"
@@ -34,11 +35,7 @@ struct Partial {
 };
 
 
-std::string format_g(double value) {
-  char buffer[48];
-  std::snprintf(buffer, sizeof buffer, "%.3g", value);
-  return buffer;
-}
+std::string format_g(double value) { return short_number(value); }
 }  // namespace
 
 std::vector<SaturationLimit> saturation_limits(const std::vector<casefile::InputLimit>& limits,

@@ -1,4 +1,5 @@
 // SPDX-License-Identifier: MIT
+#include "sigmatube/montecarlo/short_number.h"
 #include "sigmatube/montecarlo/verdict.h"
 
 #include <cstdio>
@@ -6,11 +7,7 @@
 
 namespace sigmatube::montecarlo {
 namespace {
-std::string g(double value) {
-  char buffer[48];
-  std::snprintf(buffer, sizeof buffer, "%.3g", value);
-  return buffer;
-}
+std::string g(double value) { return short_number(value); }
 void add_basis(std::string& basis, const char* what) { basis += (basis.empty() ? "" : " and ") + std::string(what); }
 }  // namespace
 

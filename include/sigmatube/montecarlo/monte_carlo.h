@@ -45,6 +45,7 @@
 #include "sigmatube/montecarlo/clopper_pearson.h"
 #include "sigmatube/montecarlo/paired.h"
 
+// Layer montecarlo/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::montecarlo {
 
 /// One model run: fill outputs[t·n_out + o] (row-major by time) for germ point xi.

@@ -33,6 +33,7 @@ result::AnalysisResult base_result(const LoadedCase& loaded, const char* command
   result::AnalysisResult r;
   r.tool_version = SIGMATUBE_VERSION;
   r.case_sha256 = loaded.case_sha256;
+  r.inputs_sha256 = loaded.inputs_sha256;
   r.created_utc = utc_now();
   r.seed = loaded.options.montecarlo.seed;
   r.title = loaded.options.title;
@@ -125,25 +126,36 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
 
     // 4. Monte Carlo cross-check with the full model (montecarlo/cross_check.h).
     ProgressBar bar("Monte Carlo runs", static_cast<std::size_t>(mc_options.runs), options.progress);
+    montecarlo::AgreementOptions agreement;
+    agreement.false_alarm_level = mc_options.false_alarm_level;
+    agreement.relative_tolerance = mc_options.relative_tolerance;
+    agreement.output_names = r.output_names;
     const montecarlo::CrossCheck check = montecarlo::cross_check(
         mc_options, germ.specs(), times, n_out, constraint_list, run_sample,
         montecarlo_run_options(loaded, runner, r.output_names, threads), surrogate.surrogate, sampled,
-        [&](long long done, long long) { bar.update(static_cast<std::size_t>(done)); });
+        [&](long long done, long long) { bar.update(static_cast<std::size_t>(done)); }, agreement);
     bar.finish();
     result::add_cross_check(r, check, mc_options.seed);
+    r.montecarlo.false_alarm_level = mc_options.false_alarm_level;
+    r.montecarlo.relative_tolerance = mc_options.relative_tolerance;
 
     // 5. Rare events: importance sampling of the full model around the design
     // point for bounds ≤ the threshold (montecarlo/rare_events.h).
     montecarlo::RareEventOptions rare;
     rare.threshold = options.importance_sampling_threshold;
-    rare.samples = options.importance_sampling_runs;
+    rare.samples = options.importance_sampling_runs > 0 ? options.importance_sampling_runs : mc_options.rare_event_runs;
+    rare.cov_target = mc_options.cov_target;
+    rare.skip = result::violation_shown(r);  // a rare-event estimate could only refine, never overrule
     rare.seed = mc_options.seed;
     rare.confidence = loaded.options.montecarlo.confidence;
     rare.threads = threads;
-    result::add_rare_events(r, montecarlo::rare_events(germ, surrogate.surrogate, constraint_list, times, rare, run_sample));
+    result::add_rare_events(r, montecarlo::rare_events(germ, surrogate.surrogate, constraint_list, times, rare, run_sample),
+                            rare.cov_target);
+    // 6. The bound verdicts from all the evidence (montecarlo/verdict.h).
+    result::add_verdicts(r, rare.threshold);
   }
 
-  // 6. Tube (not yet built): the next stage goes here, as a function in the layer
+  // 7. Tube (not yet built): the next stage goes here, as a function in the layer
   //    of its subject returning its own part of the result, entered into r by
   //    one call of result/stage_results.h.
   return r;

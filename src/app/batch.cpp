@@ -213,8 +213,8 @@ int run_batch(const std::string& suite_path, const BatchOptions& options) {
   if (ec || !fs::is_directory(options.directory))
     throw InputError(SourceLocation{"", 0, "-d"}, "cannot create the result folder " + options.directory);
   // Side outputs are checked up front so that a long batch is not lost at the end.
-  if (!options.junit_path.empty()) result::check_output_path(options.junit_path, options.force);
-  if (!options.json_path.empty()) result::check_output_path(options.json_path, options.force);
+  if (!options.junit_path.empty()) result::check_output_path(options.junit_path, options.force, "--junit");
+  if (!options.json_path.empty()) result::check_output_path(options.json_path, options.force, "--json");
 
   std::vector<CaseOutcome> outcomes;
   int total = 0;

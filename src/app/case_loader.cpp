@@ -1,6 +1,7 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/app/case_loader.h"
 
+#include <cstdio>
 #include <fstream>
 #include <iomanip>
 #include <sstream>
@@ -66,11 +67,33 @@ std::string join(const std::vector<std::string>& names) {
 
 }  // namespace
 
+std::string inputs_manifest(const casefile::CaseOptions& options) {
+  std::ostringstream m;
+  m << "sigmatube inputs 1\n";
+  m << "case " << sha256_hex(read_bytes(options.path)) << "\n";
+  if (!options.plan.path.empty()) {
+    std::ifstream in(options.plan.path, std::ios::binary);
+    if (!in) throw InputError(options.plan.where, "cannot open the plan file '" + options.plan.path + "'");
+    std::ostringstream bytes;
+    bytes << in.rdbuf();
+    m << "plan " << sha256_hex(bytes.str()) << "\n";
+  }
+  m << "montecarlo.runs " << options.montecarlo.runs << "\n";
+  m << "surrogate.samples " << options.surrogate.samples << "\n";
+  char value[40];
+  for (const auto& c : options.constraints) {
+    std::snprintf(value, sizeof value, "%.17g", c.max_probability);
+    m << "constraint." << c.name << ".max_probability " << value << "\n";
+  }
+  return m.str();
+}
+
 LoadedCase load_case(const std::string& path) { return load_case(casefile::read_case(path)); }
 
 LoadedCase load_case(casefile::CaseOptions options) {
   LoadedCase loaded;
   loaded.case_sha256 = sha256_hex(read_bytes(options.path));
+  loaded.inputs_sha256 = sha256_hex(inputs_manifest(options));
   loaded.options = std::move(options);
   auto model = std::shared_ptr<const model::Model>(model::make_model(loaded.options.model));
   loaded.model = model;

@@ -607,7 +607,8 @@ MonteCarloOptions read_montecarlo(const TomlTable& t) {
   MonteCarloOptions m;
   m.where = t.where();
   m.key_where = t.key_locations();
-  t.check_keys({"runs", "seed", "confidence"}, "key");
+  t.check_keys({"runs", "seed", "confidence", "false_alarm_level", "relative_tolerance", "cov_target", "rare_event_runs"},
+               "key");
   m.runs = t.integer_or("runs", m.runs);
   if (m.runs < 0) t.fail("runs", "must be ≥ 0 (0 disables the cross-check; got " + std::to_string(m.runs) + ")");
   if (t.has("seed")) {
@@ -617,6 +618,15 @@ MonteCarloOptions read_montecarlo(const TomlTable& t) {
   }
   m.confidence = t.number_or("confidence", m.confidence);
   require_open_unit(t, "confidence", m.confidence);
+  m.false_alarm_level = t.number_or("false_alarm_level", m.false_alarm_level);
+  require_open_unit(t, "false_alarm_level", m.false_alarm_level);
+  m.relative_tolerance = t.number_or("relative_tolerance", m.relative_tolerance);
+  require_positive(t, "relative_tolerance", m.relative_tolerance);
+  m.cov_target = t.number_or("cov_target", m.cov_target);
+  require_open_unit(t, "cov_target", m.cov_target);
+  m.rare_event_runs = t.integer_or("rare_event_runs", m.rare_event_runs);
+  if (m.rare_event_runs < 100)
+    t.fail("rare_event_runs", "must be ≥ 100 (got " + std::to_string(m.rare_event_runs) + ")");
   return m;
 }
 

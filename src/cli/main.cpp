@@ -167,8 +167,8 @@ int main(int argc, char** argv) {
     }
     if (simulate->parsed()) {
       result::check_output_path(output, common.force);
-      if (!csv_path.empty()) result::check_output_path(csv_path, common.force);
-      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      if (!csv_path.empty()) result::check_output_path(csv_path, common.force, "--csv");
+      if (!common.json.empty()) result::check_output_path(common.json, common.force, "--json");
       const app::LoadedCase loaded = app::load_case(case_path);
       const result::AnalysisResult nominal = app::simulate_case(loaded);
       result::write_result_file(nominal, output, common.force);
@@ -193,7 +193,7 @@ int main(int argc, char** argv) {
     }
     if (run->parsed()) {
       result::check_output_path(output, common.force);
-      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      if (!common.json.empty()) result::check_output_path(common.json, common.force, "--json");
       const app::LoadedCase loaded = app::load_case(case_path);
       app::AnalysisOptions options = analysis_options(common);
       options.samples = samples;
@@ -206,20 +206,24 @@ int main(int argc, char** argv) {
       return analysis.verdict_exit_code();
     }
     if (show->parsed()) {
-      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      if (!common.json.empty()) result::check_output_path(common.json, common.force, "--json");
       const result::AnalysisResult stored = result::read_result_file(case_path);
       std::cout << result::summary_text(stored);
       if (!common.json.empty()) result::write_text_file(result::json_summary(stored), common.json, common.force);
       return 0;
     }
     if (compare->parsed()) {
-      if (!junit.empty()) result::check_output_path(junit, common.force);
-      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      if (!junit.empty()) result::check_output_path(junit, common.force, "--junit");
+      if (!common.json.empty()) result::check_output_path(common.json, common.force, "--json");
       result::CompareOptions options = budget.empty() ? result::CompareOptions{} : result::read_budget(budget);
       if (max_increase >= 0) options.max_absolute_increase = max_increase;
       if (significance > 0) options.significance = significance;
       const result::AnalysisResult base = result::read_result_file(base_path);
       const result::AnalysisResult candidate = result::read_result_file(candidate_path);
+      for (const auto& [path, side] : {std::pair{&base_path, &base}, std::pair{&candidate_path, &candidate}})
+        if (side->command == "simulate")
+          throw InputError(SourceLocation{*path, 0, ""},
+                           "is a result of `simulate` (nominal run only); compare needs results of `run`");
       const result::CompareReport gate = result::compare_results(base, candidate, options);
       say(common, result::compare_text(gate));
       if (!junit.empty()) result::write_text_file(result::compare_junit(gate, "sigmatube.compare"), junit, common.force);

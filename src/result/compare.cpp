@@ -170,11 +170,15 @@ CompareOptions read_budget(const std::string& path) {
 
 CompareReport compare_results(const AnalysisResult& base, const AnalysisResult& candidate, const CompareOptions& o) {
   o.validate();
+
   CompareReport report;
   report.base_label = label_of(base, "base");
   report.candidate_label = label_of(candidate, "candidate");
   report.base_sha256 = base.case_sha256;
   report.candidate_sha256 = candidate.case_sha256;
+  report.base_inputs_sha256 = base.inputs_sha256;
+  report.candidate_inputs_sha256 = candidate.inputs_sha256;
+  report.same_inputs = !base.inputs_sha256.empty() && base.inputs_sha256 == candidate.inputs_sha256;
   report.significance = o.significance;
 
   std::vector<std::string> names;
@@ -276,6 +280,14 @@ std::string compare_text(const CompareReport& report) {
     out << "  base case sha256       " << (report.base_sha256.empty() ? kMissingValue : report.base_sha256) << "\n"
         << "  candidate case sha256  " << (report.candidate_sha256.empty() ? kMissingValue : report.candidate_sha256)
         << "\n";
+  if (!report.base_inputs_sha256.empty() || !report.candidate_inputs_sha256.empty())
+    out << "  base inputs sha256     "
+        << (report.base_inputs_sha256.empty() ? kMissingValue : report.base_inputs_sha256) << "\n"
+        << "  cand. inputs sha256    "
+        << (report.candidate_inputs_sha256.empty() ? kMissingValue : report.candidate_inputs_sha256) << "\n";
+  if (report.same_inputs)
+    out << "  WARNING: base and candidate have the same inputs (case, plan and overrides); any change\n"
+           "  below comes from the seed or the run sizes alone, not from a new plan\n";
   out << "  one-sided significance " << format_value(report.significance) << "\n\n";
   TextTable table;
   table.header = {"constraint", "from",    "base P",      "candidate P",  "change", "allowed",
@@ -342,9 +354,12 @@ std::string compare_json(const CompareReport& report) {
   std::ostringstream o;
   o << "{\n  \"format\": \"sigmatube-compare\",\n  \"version\": 1,\n";
   o << "  \"base\": {\"label\": " << json_string(report.base_label)
-    << ", \"case_sha256\": " << json_string(report.base_sha256) << "},\n";
+    << ", \"case_sha256\": " << json_string(report.base_sha256)
+    << ", \"inputs_sha256\": " << json_string(report.base_inputs_sha256) << "},\n";
   o << "  \"candidate\": {\"label\": " << json_string(report.candidate_label)
-    << ", \"case_sha256\": " << json_string(report.candidate_sha256) << "},\n";
+    << ", \"case_sha256\": " << json_string(report.candidate_sha256)
+    << ", \"inputs_sha256\": " << json_string(report.candidate_inputs_sha256) << "},\n";
+  o << "  \"same_inputs\": " << (report.same_inputs ? "true" : "false") << ",\n";
   o << "  \"significance\": " << json_number(report.significance) << ",\n";
   o << "  \"regression\": " << (report.regression ? "true" : "false") << ",\n";
   o << "  \"exit_code\": " << (report.regression ? 1 : 0) << ",\n";

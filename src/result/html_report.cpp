@@ -429,7 +429,7 @@ std::string summary_table(const AnalysisResult& r) {
   const int percent = int(std::lround(100 * r.montecarlo.confidence));
   o << "<table class=\"summary\">\n<thead><tr><th>constraint</th><th>type</th><th>scope</th><th>bound</th>"
     << "<th>surrogate P ± s.e.</th><th>Monte Carlo P [" << percent
-    << "% CI]</th><th>importance sampling P [CI], ESS</th>"
+    << "% CI]</th><th>importance sampling P [CI], ESS, CoV</th>"
     << "<th>margin</th><th>worst time [s]</th><th>Gaussian / "
        "Cantelli</th><th>agreement</th><th>verdict</th></tr></thead>\n<tbody>\n";
   for (const auto& c : r.constraints) {
@@ -455,17 +455,22 @@ std::string summary_table(const AnalysisResult& r) {
     }
     const auto& is = c.importance_sampling;
     cell(is.done ? format_probability(is.probability) + " [" + format_probability(is.interval[0]) + ", " +
-                       format_probability(is.interval[1]) + "], " + format_value(is.effective_sample_size, 3)
+                       format_probability(is.interval[1]) + "], " + format_value(is.effective_sample_size, 3) +
+                       (std::isnan(is.coefficient_of_variation)
+                            ? std::string()
+                            : ", CoV " + format_value(is.coefficient_of_variation, 2) +
+                                  (is.converged ? "" : " (target not met: no verdict)"))
                  : std::string(kMissingValue),
          "num");
     cell(format_value(c.margin), "num");
     cell(format_value(c.worst_time), "num");
-    int g = 0, ct = 0;
-    for (auto f : c.gaussian_ok) g += f ? 1 : 0;
-    for (auto f : c.cantelli_ok) ct += f ? 1 : 0;
+    // Counted over the report times in the window, like the text summary.
+    int g = 0, gt = 0, ct = 0, ctt = 0;
+    window_flag_counts(c, r.time, c.gaussian_ok, &g, &gt);
+    window_flag_counts(c, r.time, c.cantelli_ok, &ct, &ctt);
     cell(c.gaussian_ok.empty() ? std::string(kMissingValue)
-                               : std::to_string(g) + "/" + std::to_string(c.gaussian_ok.size()) + " · " +
-                                     std::to_string(ct) + "/" + std::to_string(c.cantelli_ok.size()),
+                               : std::to_string(g) + "/" + std::to_string(gt) + " · " + std::to_string(ct) + "/" +
+                                     std::to_string(ctt),
          "num");
     cell(
         c.agreement.empty() ? kMissingValue : c.agreement + (c.agreement_cause.empty() ? "" : ": " + c.agreement_cause),

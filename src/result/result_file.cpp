@@ -186,6 +186,11 @@ void write_constraint(H5::Group& parent, const ConstraintResult& c) {
     write_vector(gi, "interval", std::vector<double>{is.interval[0], is.interval[1]});
     write_scalar(gi, "effective_sample_size", is.effective_sample_size);
     write_scalar(gi, "design_point_distance", is.design_point_distance);
+    write_scalar(gi, "coefficient_of_variation", is.coefficient_of_variation);
+    write_scalar(gi, "cov_target", is.cov_target);
+    write_attribute(gi, "converged", static_cast<long long>(is.converged ? 1 : 0));
+    write_scalar_int(gi, "failed_runs", is.failed_runs);
+    write_scalar(gi, "pessimistic_probability", is.pessimistic_probability);
   }
 }
 
@@ -194,6 +199,9 @@ void write_montecarlo(H5::H5File& file, const AnalysisResult& r) {
   H5::Group g = file.createGroup("/montecarlo");
   write_attribute(g, "agreement", m.agreement);
   write_attribute(g, "agreement_cause", m.agreement_cause);
+  write_attribute(g, "agreement_details", m.agreement_details);
+  write_attribute(g, "false_alarm_level", m.false_alarm_level);
+  write_attribute(g, "relative_tolerance", m.relative_tolerance);
   write_attribute(g, "confidence", m.confidence);
   write_attribute_u64(g, "seed", m.seed);
   write_scalar_int(g, "runs", m.runs);
@@ -216,6 +224,20 @@ void write_montecarlo(H5::H5File& file, const AnalysisResult& r) {
     write_scalar(gi, "path_probability", c.montecarlo.path_probability);
     write_scalar_int(gi, "path_violations", c.montecarlo.path_violations);
     write_vector(gi, "path_interval", std::vector<double>{c.montecarlo.path_interval[0], c.montecarlo.path_interval[1]});
+    const MonteCarloConstraint& mc = c.montecarlo;
+    write_vector(gi, "path_interval_failures_safe",
+                 std::vector<double>{mc.path_interval_failures_safe[0], mc.path_interval_failures_safe[1]});
+    write_vector(gi, "path_interval_failures_violating",
+                 std::vector<double>{mc.path_interval_failures_violating[0], mc.path_interval_failures_violating[1]});
+    write_scalar(gi, "pessimistic_probability", mc.pessimistic_probability);
+    write_scalar_int(gi, "compared_runs", mc.compared_runs);
+    write_scalar_int(gi, "surrogate_only", mc.surrogate_only);
+    write_scalar_int(gi, "model_only", mc.model_only);
+    write_scalar_int(gi, "compared_time_index", mc.compared_time_index);
+    write_scalar(gi, "paired_difference", mc.paired_difference);
+    write_vector(gi, "paired_interval", std::vector<double>{mc.paired_interval[0], mc.paired_interval[1]});
+    write_scalar(gi, "mcnemar_p", mc.mcnemar_p);
+    write_scalar(gi, "holm_p", mc.holm_p);
   }
 }
 
@@ -224,6 +246,7 @@ void write_all(const AnalysisResult& r, const std::string& path) {
   H5::H5File file(path, H5F_ACC_TRUNC);
   write_attribute(file, "tool_version", r.tool_version);
   write_attribute(file, "case_sha256", r.case_sha256);
+  write_attribute(file, "inputs_sha256", r.inputs_sha256);
   write_attribute(file, "created_utc", r.created_utc);
   write_attribute_u64(file, "seed", r.seed);
   write_attribute(file, "title", r.title);
@@ -406,6 +429,7 @@ AnalysisResult read_all(const std::string& path) {
   if (!root.attrExists("tool_version")) reader.fail("not a sigmatube result: no tool_version attribute");
   r.tool_version = reader.attribute_string(root, "tool_version");
   r.case_sha256 = reader.attribute_string(root, "case_sha256");
+  r.inputs_sha256 = reader.attribute_string(root, "inputs_sha256");
   r.created_utc = reader.attribute_string(root, "created_utc");
   r.seed = reader.attribute_u64(root, "seed");
   r.title = reader.attribute_string(root, "title");
@@ -499,6 +523,13 @@ AnalysisResult read_all(const std::string& path) {
         read_pair(reader, gi, "interval", is.interval);
         is.effective_sample_size = reader.scalar(gi, "effective_sample_size");
         is.design_point_distance = reader.scalar(gi, "design_point_distance");
+        if (Reader::exists(gi, "coefficient_of_variation")) {
+          is.coefficient_of_variation = reader.scalar(gi, "coefficient_of_variation");
+          is.cov_target = reader.scalar(gi, "cov_target");
+          is.converged = reader.attribute_int(gi, "converged", 0) != 0;
+          is.failed_runs = reader.scalar_int(gi, "failed_runs");
+          is.pessimistic_probability = reader.scalar(gi, "pessimistic_probability");
+        }
       }
       r.constraints.push_back(std::move(c));
     }
@@ -510,6 +541,9 @@ AnalysisResult read_all(const std::string& path) {
     H5::Group g = file.openGroup("/montecarlo");
     m.agreement = reader.attribute_string(g, "agreement");
     m.agreement_cause = reader.attribute_string(g, "agreement_cause");
+    m.agreement_details = reader.attribute_string(g, "agreement_details");
+    m.false_alarm_level = reader.attribute_double(g, "false_alarm_level", kNaN);
+    m.relative_tolerance = reader.attribute_double(g, "relative_tolerance", kNaN);
     m.confidence = reader.attribute_double(g, "confidence", 0.95);
     m.seed = reader.attribute_u64(g, "seed");
     m.runs = reader.scalar_int(g, "runs");
@@ -533,6 +567,20 @@ AnalysisResult read_all(const std::string& path) {
       c.montecarlo.path_probability = reader.scalar(gi, "path_probability");
       c.montecarlo.path_violations = reader.scalar_int(gi, "path_violations");
       read_pair(reader, gi, "path_interval", c.montecarlo.path_interval);
+      if (Reader::exists(gi, "compared_runs")) {
+        auto& mc = c.montecarlo;
+        read_pair(reader, gi, "path_interval_failures_safe", mc.path_interval_failures_safe);
+        read_pair(reader, gi, "path_interval_failures_violating", mc.path_interval_failures_violating);
+        mc.pessimistic_probability = reader.scalar(gi, "pessimistic_probability");
+        mc.compared_runs = reader.scalar_int(gi, "compared_runs");
+        mc.surrogate_only = reader.scalar_int(gi, "surrogate_only");
+        mc.model_only = reader.scalar_int(gi, "model_only");
+        mc.compared_time_index = static_cast<int>(reader.scalar_int(gi, "compared_time_index"));
+        mc.paired_difference = reader.scalar(gi, "paired_difference");
+        read_pair(reader, gi, "paired_interval", mc.paired_interval);
+        mc.mcnemar_p = reader.scalar(gi, "mcnemar_p");
+        mc.holm_p = reader.scalar(gi, "holm_p");
+      }
     }
   }
   return r;
@@ -574,15 +622,15 @@ int AnalysisResult::verdict_exit_code() const {
   return exceeded ? 1 : 0;
 }
 
-void check_output_path(const std::string& path, bool force) {
-  if (path.empty()) throw InputError(SourceLocation{"", 0, "-o"}, "an output file name is required");
+void check_output_path(const std::string& path, bool force, const std::string& option) {
+  if (path.empty()) throw InputError(SourceLocation{"", 0, option}, "an output file name is required");
   const fs::path p(path);
   const fs::path folder = p.has_parent_path() ? p.parent_path() : fs::path(".");
   if (!fs::is_directory(folder))
-    throw InputError(SourceLocation{path, 0, "-o"}, "folder '" + folder.string() + "' does not exist");
+    throw InputError(SourceLocation{path, 0, option}, "folder '" + folder.string() + "' does not exist");
   if (fs::exists(p) && !force)
-    throw InputError(SourceLocation{path, 0, "-o"}, "file exists (use --force to overwrite)");
-  if (fs::is_directory(p)) throw InputError(SourceLocation{path, 0, "-o"}, "is a folder");
+    throw InputError(SourceLocation{path, 0, option}, "file exists (use --force to overwrite)");
+  if (fs::is_directory(p)) throw InputError(SourceLocation{path, 0, option}, "is a folder");
 }
 
 void write_result_file(const AnalysisResult& result, const std::string& path, bool force) {
@@ -602,6 +650,11 @@ void write_result_file(const AnalysisResult& result, const std::string& path, bo
 
 AnalysisResult read_result_file(const std::string& path) {
   if (!fs::exists(path)) throw InputError(SourceLocation{path, 0, ""}, "no such file");
+  if (fs::is_directory(path)) throw InputError(SourceLocation{path, 0, ""}, "is a folder, not a result file");
+  H5::Exception::dontPrint();
+  if (H5Fis_hdf5(path.c_str()) <= 0)
+    throw InputError(SourceLocation{path, 0, ""},
+                     "not a sigmatube result file (not HDF5; results are written by `run` and `simulate`)");
   try {
     return read_all(path);
   } catch (const H5::Exception& e) {

@@ -205,6 +205,15 @@ struct MonteCarloOptions {
   long long runs = 2000;                 // 0 disables the cross-check
   unsigned long long seed = 20261201ULL;
   double confidence = 0.95;              // two-sided, for Clopper–Pearson intervals
+  // Paired cross-check (montecarlo/agreement.h): family-wise false-alarm rate of the
+  // McNemar tests over all constraints (Holm), and the relative difference between
+  // surrogate and model probability that counts as practically relevant.
+  double false_alarm_level = 1e-3;
+  double relative_tolerance = 0.2;
+  // Rare events (importance sampling): target coefficient of variation and the most
+  // full-model runs spent per constraint to reach it.
+  double cov_target = 0.1;
+  long long rare_event_runs = 5000;
   SourceLocation where;
   KeyLocations key_where;
 };

@@ -23,6 +23,20 @@ struct MonteCarloConstraint {
   double path_probability = kNaN;
   long long path_violations = 0;
   double path_interval[2] = {kNaN, kNaN};  // Clopper–Pearson at MonteCarloResult::confidence
+  // Failed runs are unknown: intervals over all runs with failures counted safe /
+  // counted as violations, and the pessimistic governing probability a verdict uses.
+  double path_interval_failures_safe[2] = {kNaN, kNaN};
+  double path_interval_failures_violating[2] = {kNaN, kNaN};
+  double pessimistic_probability = kNaN;
+  // Paired cross-check on the same runs (montecarlo/agreement.h).
+  long long compared_runs = 0;
+  long long surrogate_only = 0;   // runs the surrogate violates and the model does not
+  long long model_only = 0;       // runs the model violates and the surrogate does not
+  int compared_time_index = -1;   // pointwise scope: the report time compared; −1 for path
+  double paired_difference = kNaN;              // p_S − p_M on the same runs
+  double paired_interval[2] = {kNaN, kNaN};     // Agresti–Min at MonteCarloResult::confidence
+  double mcnemar_p = kNaN;                      // exact, two-sided
+  double holm_p = kNaN;                         // Holm-adjusted over the constraints
 };
 
 struct ImportanceSamplingResult {
@@ -31,8 +45,13 @@ struct ImportanceSamplingResult {
   double probability = kNaN;
   double standard_error = kNaN;
   double interval[2] = {kNaN, kNaN};
-  double effective_sample_size = kNaN;
+  double effective_sample_size = kNaN;  // Kish, over the violating runs' weights
   double design_point_distance = kNaN;  // ‖z*‖ in standard-normal germ space (reliability index β)
+  double coefficient_of_variation = kNaN;
+  double cov_target = kNaN;
+  bool converged = false;               // CoV target met: only then does it count for the verdict
+  long long failed_runs = 0;
+  double pessimistic_probability = kNaN;  // failed runs counted as violations
 };
 
 struct ConstraintResult {
@@ -73,7 +92,7 @@ struct ConstraintResult {
   bool has_montecarlo = false;
   MonteCarloConstraint montecarlo;
   ImportanceSamplingResult importance_sampling;
-  std::string agreement;  // "agree" | "disagree" | "" (no cross-check)
+  std::string agreement;  // "agree" | "disagree" | "too few runs to tell" | "" (no cross-check)
   std::string agreement_cause;
 };
 
@@ -91,8 +110,11 @@ struct MonteCarloResult {
   Cube sample_outputs;                        // K kept runs, each [T, n_out]
   double joint_path_probability = kNaN;
   double joint_path_interval[2] = {kNaN, kNaN};
-  std::string agreement;                      // overall "agree" | "disagree"
-  std::string agreement_cause;
+  std::string agreement;                      // overall "agree" | "disagree" | "too few runs to tell"
+  std::string agreement_cause;                // one line: why (empty when they agree)
+  std::string agreement_details;              // several lines: per constraint, warnings
+  double false_alarm_level = kNaN;            // family-wise, Holm over constraints
+  double relative_tolerance = kNaN;           // relevant |p_S − p_M| / p_M
 };
 
 struct SurrogateResult {
@@ -119,6 +141,7 @@ struct AnalysisResult {
   // Root attributes.
   std::string tool_version;
   std::string case_sha256;
+  std::string inputs_sha256;  // case file + referenced files + suite overrides (app/case_loader.h)
   std::string created_utc;
   unsigned long long seed = 0;
   std::string title;

@@ -10,7 +10,7 @@ namespace sigmatube::result {
 
 /// Throws InputError (key "-o") if `path` exists and `force` is false, or its
 /// folder does not exist. Call before any long computation so nothing is lost.
-void check_output_path(const std::string& path, bool force);
+void check_output_path(const std::string& path, bool force, const std::string& option = "-o");
 
 /// Writes `result` to a temporary file beside `path` and moves it into place
 /// only when complete: a killed run never leaves a half-written file and never

@@ -356,6 +356,17 @@ void finish_summary(SurrogateSummary& out, const detail::RunCache& cache, int n_
   if (!stalled.empty() && !out.tolerance_met) out.notes.push_back(stalled);
 }
 
+Surrogate make_surrogate(const std::vector<germ::FamilySpec>& families, MultiIndexSet indices,
+                         Eigen::MatrixXd coefficients, int n_times, int n_outputs) {
+  Surrogate surrogate;
+  surrogate.families = families;
+  surrogate.indices = std::move(indices);
+  surrogate.coefficients = std::move(coefficients);
+  surrogate.n_times = n_times;
+  surrogate.n_outputs = n_outputs;
+  return surrogate;
+}
+
 // "runs after each refinement: a, b, …" (at most 40 numbers, the middle elided).
 std::string runs_note(const std::vector<int>& runs) {
   std::ostringstream m;
@@ -403,13 +414,7 @@ Surrogate build_dimension_adaptive(const std::vector<germ::FamilySpec>& families
   out.notes.push_back(detail::retained_per_input(outcome.indices));
   finish_summary(out, cache, n_times, n_outputs, outcome.history);
 
-  Surrogate surrogate;
-  surrogate.families = families;
-  surrogate.indices = std::move(outcome.indices);
-  surrogate.coefficients = std::move(outcome.coefficients);
-  surrogate.n_times = n_times;
-  surrogate.n_outputs = n_outputs;
-  return surrogate;
+  return make_surrogate(families, std::move(outcome.indices), std::move(outcome.coefficients), n_times, n_outputs);
 }
 
 }  // namespace
@@ -526,13 +531,7 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
     out.notes.push_back("error estimate above tolerance (non-adaptive build: level and degree were not raised)");
   finish_summary(out, cache, n_times, n_outputs, history);
 
-  Surrogate surrogate;
-  surrogate.families = families;
-  surrogate.indices = std::move(current.indices);
-  surrogate.coefficients = std::move(current.coefficients);
-  surrogate.n_times = n_times;
-  surrogate.n_outputs = n_outputs;
-  return surrogate;
+  return make_surrogate(families, std::move(current.indices), std::move(current.coefficients), n_times, n_outputs);
 }
 
 Surrogate constant_surrogate(const Eigen::MatrixXd& nominal_outputs) {

@@ -34,15 +34,6 @@ const char* law_name(casefile::ControlLaw law) {
   return "?";
 }
 
-const char* method_name(casefile::SurrogateMethod method) {
-  switch (method) {
-    case casefile::SurrogateMethod::sparse_grid: return "sparse-grid";
-    case casefile::SurrogateMethod::tensor_grid: return "tensor-grid";
-    case casefile::SurrogateMethod::regression: return "regression";
-  }
-  return "?";
-}
-
 const char* distribution_name(casefile::DistributionKind kind) {
   using K = casefile::DistributionKind;
   switch (kind) {
@@ -164,15 +155,16 @@ std::string describe_case(const LoadedCase& loaded) {
     if (c.window_in_seconds) out << ", window " << c.window_in_seconds->first << " … " << c.window_in_seconds->second << " s";
     out << ")\n";
   }
-  out << "surrogate   " << method_name(o.surrogate.method);
+  const bool refines = o.surrogate.adaptive || expansion::is_dimension_adaptive(o.surrogate.method);
+  out << "surrogate   " << expansion::method_name(o.surrogate.method);
   if (o.surrogate.method == casefile::SurrogateMethod::sparse_grid) out << ", level " << o.surrogate.level;
-  else out << ", degree " << o.surrogate.degree;
-  if (o.surrogate.adaptive) out << " (adaptive to tolerance " << o.surrogate.tolerance << ", at most "
-                                << o.surrogate.max_model_runs << " runs)";
+  else if (!expansion::is_dimension_adaptive(o.surrogate.method)) out << ", degree " << o.surrogate.degree;
+  if (refines) out << " (adaptive to tolerance " << o.surrogate.tolerance << ", at most "
+                   << o.surrogate.max_model_runs << " runs)";
   out << "\n";
   const int runs = g.dimension() > 0 ? expansion::planned_model_runs(g.specs(), o.surrogate) : 1;
   out << "model runs  " << runs << " for the surrogate design"
-      << (o.surrogate.adaptive ? " (first step; adaptive refinement may add more)" : "") << ", "
+      << (refines ? " (first step; adaptive refinement may add more)" : "") << ", "
       << o.montecarlo.runs << " for the Monte Carlo cross-check\n";
   return out.str();
 }

@@ -575,7 +575,9 @@ SurrogateOptions read_surrogate(const TomlTable& t) {
   s.method = t.choice<SurrogateMethod>("method",
                                        {{"sparse-grid", SurrogateMethod::sparse_grid},
                                         {"tensor-grid", SurrogateMethod::tensor_grid},
-                                        {"regression", SurrogateMethod::regression}},
+                                        {"regression", SurrogateMethod::regression},
+                                        {"adaptive-sparse-grid", SurrogateMethod::adaptive_sparse_grid},
+                                        {"sparse-regression", SurrogateMethod::sparse_regression}},
                                        s.method, "method");
   const long long degree = t.integer_or("degree", s.degree);
   if (degree < 0 || degree > 1000) t.fail("degree", "must be in [0, 1000] (got " + std::to_string(degree) + ")");

@@ -513,6 +513,8 @@ std::string facts_table(const AnalysisResult& r) {
             (i >= 0 && std::size_t(i) < r.output_names.size() ? " (" + r.output_names[std::size_t(i)] + ")" : "") +
             (s.tolerance_met ? "" : " — tolerance NOT met"));
     for (const auto& line : s.karhunen_loeve) rows.emplace_back("Karhunen–Loève", line);
+    // What the build did: runs per refinement, retained indices, why it stopped.
+    for (const auto& note : s.notes) rows.emplace_back("surrogate build", note);
   } else {
     rows.emplace_back("surrogate", "none (nominal run only)");
   }

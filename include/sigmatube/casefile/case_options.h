@@ -180,7 +180,7 @@ struct ConstraintOptions {
   KeyLocations key_where;
 };
 
-enum class SurrogateMethod { sparse_grid, tensor_grid, regression };
+enum class SurrogateMethod { sparse_grid, tensor_grid, regression, adaptive_sparse_grid, sparse_regression };
 enum class RegressionDesign { sobol, latin_hypercube };
 
 /// [surrogate]

@@ -62,6 +62,19 @@ void require_unique(const TomlTable& t, const std::string& key, const std::vecto
       if (names[i] == names[j]) t.fail(key, "name '" + names[i] + "' appears twice");
 }
 
+// `written` (the value of `key`) resolved against the case file's folder unless
+// absolute; an error at `key` when no such file exists.
+std::string existing_file_beside_case(const TomlTable& t, const std::string& key, const std::string& written,
+                                      const std::string& case_path, const std::string& what) {
+  namespace fs = std::filesystem;
+  fs::path file(written);
+  if (file.is_relative()) file = fs::path(case_path).parent_path() / file;
+  const std::string resolved = file.lexically_normal().string();
+  std::error_code ec;
+  if (!fs::is_regular_file(file, ec)) t.fail(key, what + " '" + written + "' not found (looked for '" + resolved + "')");
+  return resolved;
+}
+
 // ---------------------------------------------------------------- [model]
 
 const std::vector<std::string> kModelKeys = {"builtin", "plugin", "states", "inputs", "parameters", "rhs", "outputs"};
@@ -107,13 +120,7 @@ ModelOptions read_model(const TomlTable& t, const std::string& case_path) {
     t.check_keys_for_kind({"plugin", "parameters", "outputs"}, kModelKeys, "a model plugin");
     model.plugin = t.string("plugin");
     if (model.plugin.empty()) t.fail("plugin", "must name a shared library");
-    namespace fs = std::filesystem;
-    fs::path file(model.plugin);
-    if (file.is_relative()) file = fs::path(case_path).parent_path() / file;
-    model.plugin_path = file.lexically_normal().string();
-    std::error_code ec;
-    if (!fs::is_regular_file(file, ec))
-      t.fail("plugin", "model plugin '" + model.plugin + "' not found (looked for '" + model.plugin_path + "')");
+    model.plugin_path = existing_file_beside_case(t, "plugin", model.plugin, case_path, "model plugin");
     model.parameters = read_named_values(t, "parameters");
   } else if (t.has("builtin")) {
     model.builtin = t.string("builtin");
@@ -183,13 +190,7 @@ PlanOptions read_plan(const TomlTable& t, const std::string& case_path) {
   plan.interpolation = t.choice<Interpolation>(
       "interpolation", {{"linear", Interpolation::linear}, {"cubic", Interpolation::cubic}}, Interpolation::linear,
       "interpolation");
-  namespace fs = std::filesystem;
-  fs::path file(plan.file);
-  if (file.is_relative()) file = fs::path(case_path).parent_path() / file;
-  plan.path = file.lexically_normal().string();
-  std::error_code ec;
-  if (!fs::is_regular_file(file, ec))
-    t.fail("file", "plan file '" + plan.file + "' not found (looked for '" + plan.path + "')");
+  plan.path = existing_file_beside_case(t, "file", plan.file, case_path, "plan file");
   return plan;
 }
 

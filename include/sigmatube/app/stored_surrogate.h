@@ -9,6 +9,7 @@
 #include "sigmatube/expansion/surrogate.h"
 #include "sigmatube/result/analysis_result.h"
 
+// Layer app/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::app {
 
 /// The expansion of `result.surrogate` over all (time, output) columns.

@@ -30,13 +30,6 @@ std::vector<std::string> concat(std::vector<std::string> a, const std::vector<st
   return a;
 }
 
-// Names used in expressions must be identifiers the expression parser accepts.
-bool is_identifier(const std::string& name) {
-  if (name.empty()) return false;
-  auto alpha = [](char c) { return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || c == '_'; };
-  if (!alpha(name[0])) return false;
-  return std::all_of(name.begin(), name.end(), [&](char c) { return alpha(c) || (c >= '0' && c <= '9'); });
-}
 
 // Uncertain and constraint names become HDF5 group names and suite override keys, so
 // they use the characters of a TOML bare key only.
@@ -69,9 +62,22 @@ void require_unique(const TomlTable& t, const std::string& key, const std::vecto
       if (names[i] == names[j]) t.fail(key, "name '" + names[i] + "' appears twice");
 }
 
+// `written` (the value of `key`) resolved against the case file's folder unless
+// absolute; an error at `key` when no such file exists.
+std::string existing_file_beside_case(const TomlTable& t, const std::string& key, const std::string& written,
+                                      const std::string& case_path, const std::string& what) {
+  namespace fs = std::filesystem;
+  fs::path file(written);
+  if (file.is_relative()) file = fs::path(case_path).parent_path() / file;
+  const std::string resolved = file.lexically_normal().string();
+  std::error_code ec;
+  if (!fs::is_regular_file(file, ec)) t.fail(key, what + " '" + written + "' not found (looked for '" + resolved + "')");
+  return resolved;
+}
+
 // ---------------------------------------------------------------- [model]
 
-const std::vector<std::string> kModelKeys = {"builtin", "states", "inputs", "parameters", "rhs", "outputs"};
+const std::vector<std::string> kModelKeys = {"builtin", "plugin", "states", "inputs", "parameters", "rhs", "outputs"};
 
 std::vector<NamedValue> read_named_values(const TomlTable& table, const std::string& key) {
   std::vector<NamedValue> out;
@@ -104,11 +110,19 @@ std::vector<std::string> read_identifiers(const TomlTable& table, const std::str
   return names;
 }
 
-ModelOptions read_model(const TomlTable& t) {
+ModelOptions read_model(const TomlTable& t, const std::string& case_path) {
   ModelOptions model;
   model.where = t.where();
   model.key_where = t.key_locations();
-  if (t.has("builtin")) {
+  if (t.has("plugin")) {
+    // A shared library with the C interface of sigmatube/model_plugin.h; its
+    // names and counts are checked when it is loaded (model/plugin_model.h).
+    t.check_keys_for_kind({"plugin", "parameters", "outputs"}, kModelKeys, "a model plugin");
+    model.plugin = t.string("plugin");
+    if (model.plugin.empty()) t.fail("plugin", "must name a shared library");
+    model.plugin_path = existing_file_beside_case(t, "plugin", model.plugin, case_path, "model plugin");
+    model.parameters = read_named_values(t, "parameters");
+  } else if (t.has("builtin")) {
     model.builtin = t.string("builtin");
     // A built-in takes its parameters by name directly in [model] (or in a
     // parameters table); the names are checked against the model later.
@@ -135,7 +149,7 @@ ModelOptions read_model(const TomlTable& t) {
   } else {
     t.check_keys(kModelKeys, "key");
     if (!t.has("states"))
-      t.fail("builtin", "[model] needs either 'builtin' or an expression model ('states' and 'rhs')");
+      t.fail("builtin", "[model] needs 'builtin', 'plugin' or an expression model ('states' and 'rhs')");
     model.states = read_identifiers(t, "states");
     if (t.has("inputs")) model.inputs = read_identifiers(t, "inputs");
     model.parameters = read_named_values(t, "parameters");
@@ -176,13 +190,7 @@ PlanOptions read_plan(const TomlTable& t, const std::string& case_path) {
   plan.interpolation = t.choice<Interpolation>(
       "interpolation", {{"linear", Interpolation::linear}, {"cubic", Interpolation::cubic}}, Interpolation::linear,
       "interpolation");
-  namespace fs = std::filesystem;
-  fs::path file(plan.file);
-  if (file.is_relative()) file = fs::path(case_path).parent_path() / file;
-  plan.path = file.lexically_normal().string();
-  std::error_code ec;
-  if (!fs::is_regular_file(file, ec))
-    t.fail("file", "plan file '" + plan.file + "' not found (looked for '" + plan.path + "')");
+  plan.path = existing_file_beside_case(t, "file", plan.file, case_path, "plan file");
   return plan;
 }
 
@@ -659,7 +667,7 @@ CaseOptions read_case(const std::string& path) {
 
   auto model = root.table("model");
   if (!model) throw InputError(SourceLocation{path, 0, "model"}, "missing required table [model]");
-  options.model = read_model(*model);
+  options.model = read_model(*model, path);
 
   auto plan = root.table("plan");
   if (!plan) throw InputError(SourceLocation{path, 0, "plan"}, "missing required table [plan]");

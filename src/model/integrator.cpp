@@ -172,7 +172,8 @@ void OdeIntegrator::integrate_dopri5(const Rhs& f, const std::vector<double>& ti
     err = std::sqrt(err / n_);
     if (!std::isfinite(err)) {
       // A stage left the finite numbers: shrink hard, the divergence check catches a true blow-up.
-      if (!ynew_.allFinite() && h <= hmin * 10.0) check_state(tnew, ynew_.data());
+      // (A NaN step, from a right-hand side that is NaN at the start, counts as tiny.)
+      if (!ynew_.allFinite() && !(h > hmin * 10.0)) check_state(tnew, ynew_.data());
       h *= 0.1;
       last_rejected = true;
       ++rejected_;

@@ -46,10 +46,12 @@ struct NamedValue {
 
 /// [model]: either a built-in (builtin non-empty) or an expression model.
 struct ModelOptions {
-  std::string builtin;                     // "" = expression model
+  std::string builtin;                     // "" = expression model (or plugin)
+  std::string plugin;                      // [model] plugin as written ("" = none)
+  std::string plugin_path;                 // resolved against the case file's folder
   std::vector<std::string> states;         // expression model only
   std::vector<std::string> inputs;         // expression model only
-  std::vector<NamedValue> parameters;      // built-in: overrides by name; expression: all parameters
+  std::vector<NamedValue> parameters;      // built-in, plugin: overrides by name; expression: all parameters
   std::vector<NamedExpression> rhs;        // expression model: d(state)/dt, one per state
   std::vector<NamedExpression> outputs;    // derived outputs, optional
   SourceLocation where;

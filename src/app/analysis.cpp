@@ -9,6 +9,7 @@
 #include <sstream>
 #include <vector>
 
+#include "sigmatube/app/breakdown_stages.h"
 #include "sigmatube/app/model_runs.h"
 #include "sigmatube/app/progress.h"
 #include "sigmatube/constraints/margins.h"
@@ -54,9 +55,11 @@ result::AnalysisResult base_result(const LoadedCase& loaded, const char* command
   r.command = command;
   r.time = loaded.closed_loop->report_times();
   r.output_names = loaded.closed_loop->output_names();
+  r.output_units = loaded.closed_loop->output_units();
   const auto& cl = *loaded.closed_loop;
   r.nominal_outputs.resize(static_cast<Eigen::Index>(r.time.size()), cl.output_count());
   cl.run(cl.nominal(), r.nominal_outputs, -1);
+  tube_stage(loaded, r);
   return r;
 }
 
@@ -360,7 +363,12 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
     r.constraints.push_back(std::move(c));
   }
 
+  // Quantile tubes and variance shares per input, on the surrogate's sampling stream.
+  quantile_stage(loaded, surrogate, mc_options.seed ^ kSurrogateStream, samples, threads, r);
+  input_share_stage(loaded, surrogate, summary, mc_options.seed ^ kSurrogateStream, samples, mc_options.confidence, r);
+
   // 3. Monte Carlo cross-check with the full model.
+  TubeCheck tube_check(r);
   if (mc_options.runs > 0 && d > 0) {
     montecarlo::MonteCarloRunOptions run_options;
     run_options.threads = threads;
@@ -380,6 +388,7 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
     run_options.run_rows = [&](long long begin, long long, const Eigen::MatrixXd& xi, double* outputs,
                                std::uint8_t* ok) {
       runner.run(xi, begin, threads, app::ModelRunner::kDefaultBlock, outputs, ok, false);
+      tube_check.observe(outputs, xi.rows(), ok);
     };
     const montecarlo::SurrogateEvaluator evaluate_surrogate = [&](const Eigen::MatrixXd& xi, Eigen::MatrixXd& values) {
       surrogate.evaluate(xi, values);
@@ -423,6 +432,7 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
       c.montecarlo.path_interval[0] = mcc.path_interval.lower;
       c.montecarlo.path_interval[1] = mcc.path_interval.upper;
     }
+    tube_check.finish(r);
     const montecarlo::Agreement agreement =
         montecarlo::assess_agreement(surrogate_violations, mc, mc.saturation_fraction);
     m.agreement = montecarlo::to_string(agreement.overall);

@@ -71,7 +71,7 @@ void require_unique(const TomlTable& t, const std::string& key, const std::vecto
 
 // ---------------------------------------------------------------- [model]
 
-const std::vector<std::string> kModelKeys = {"builtin", "states", "inputs", "parameters", "rhs", "outputs"};
+const std::vector<std::string> kModelKeys = {"builtin", "states", "inputs", "parameters", "rhs", "outputs", "units"};
 
 std::vector<NamedValue> read_named_values(const TomlTable& table, const std::string& key) {
   std::vector<NamedValue> out;
@@ -108,12 +108,14 @@ ModelOptions read_model(const TomlTable& t) {
   ModelOptions model;
   model.where = t.where();
   model.key_where = t.key_locations();
+  // Names are checked against the model's states, inputs and outputs when the case is loaded.
+  model.units = read_named_expressions(t, "units");
   if (t.has("builtin")) {
     model.builtin = t.string("builtin");
     // A built-in takes its parameters by name directly in [model] (or in a
     // parameters table); the names are checked against the model later.
     for (const auto& [key, node] : t.entries_in_file_order()) {
-      if (key == "builtin" || key == "parameters" || key == "outputs") continue;
+      if (key == "builtin" || key == "parameters" || key == "outputs" || key == "units") continue;
       if (key == "states" || key == "inputs" || key == "rhs")
         t.fail(key, "key '" + key + "' does not belong to a built-in model (it takes: builtin, outputs, parameters and "
                     "its parameters by name)");
@@ -620,6 +622,19 @@ MonteCarloOptions read_montecarlo(const TomlTable& t) {
   return m;
 }
 
+TubeOptions read_tube(const TomlTable& t) {
+  TubeOptions o;
+  o.where = t.where();
+  o.key_where = t.key_locations();
+  t.check_keys({"position", "sigma"}, "key");
+  if (!t.has("position")) t.missing("position");
+  o.position = t.strings("position");
+  require_unique(t, "position", o.position);
+  o.sigma = t.number_or("sigma", o.sigma);
+  require_positive(t, "sigma", o.sigma);
+  return o;
+}
+
 template <class Entry>
 void require_unique_names(const std::vector<Entry>& entries, const std::string& what) {
   for (std::size_t i = 0; i < entries.size(); ++i)
@@ -636,7 +651,7 @@ CaseOptions read_case(const std::string& path) {
   const toml::table root_table = detail::parse_toml_file(path, "case file");
   const TomlTable root(path, root_table, "", 0);
   root.check_keys({"title", "model", "plan", "control", "simulation", "uncertain", "constraint", "surrogate",
-                   "montecarlo"},
+                   "montecarlo", "tube"},
                   "top-level key or table");
   CaseOptions options;
   options.path = path;
@@ -680,6 +695,7 @@ CaseOptions read_case(const std::string& path) {
   else options.surrogate.where = {path, 0, "surrogate"};
   if (auto montecarlo = root.table("montecarlo")) options.montecarlo = read_montecarlo(*montecarlo);
   else options.montecarlo.where = {path, 0, "montecarlo"};
+  if (auto tube = root.table("tube")) options.tube = read_tube(*tube);
   return options;
 }
 

@@ -15,6 +15,7 @@
 #include "sigmatube/expansion/multi_index.h"
 #include "sigmatube/expansion/polynomial_basis.h"
 #include "sigmatube/expansion/pseudo_spectral_projection.h"
+#include "sigmatube/expansion/grouped_sobol.h"
 #include "sigmatube/expansion/regression.h"
 #include "sigmatube/expansion/sobol_indices.h"
 #include "sigmatube/expansion/tensor_projection.h"
@@ -291,6 +292,8 @@ struct Fit {
   MultiIndexSet indices;
   Eigen::MatrixXd coefficients;  // [P, n_columns]
   Eigen::VectorXd loo;           // regression: ε_LOO per column
+  Eigen::MatrixXd matrix;        // W of the fit, [P, N]
+  Eigen::MatrixXd points;        // its design points, [N, d]
 };
 
 Fit fit(const std::vector<germ::FamilySpec>& families, const casefile::SurrogateOptions& options, const Design& design,
@@ -298,22 +301,26 @@ Fit fit(const std::vector<germ::FamilySpec>& families, const casefile::Surrogate
   const Eigen::MatrixXd values = cache.values(design.points);
   Fit result;
   result.setting = design.setting;
+  result.points = design.points;
   switch (options.method) {
     case casefile::SurrogateMethod::sparse_grid: {
       const LinearProjection projection = sparse_pseudo_spectral_projection(families, design.grid);
       result.indices = projection.indices;
       result.coefficients.noalias() = projection.matrix * values;
+      result.matrix = projection.matrix;
       break;
     }
     case casefile::SurrogateMethod::tensor_grid:
       result.indices = design.tensor.indices;
       result.coefficients.noalias() = design.tensor.matrix * values;
+      result.matrix = design.tensor.matrix;
       break;
     case casefile::SurrogateMethod::regression: {
       const RegressionProjection projection = regression_on_points(families, design.indices, design.points);
       result.indices = projection.indices;
       result.coefficients.noalias() = projection.matrix * values;
       result.loo = relative_leave_one_out_error(projection, values, result.coefficients);
+      result.matrix = projection.matrix;
       break;
     }
   }
@@ -556,6 +563,9 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
   }
   if (!options.adaptive && !out.tolerance_met)
     out.notes.push_back("error estimate above tolerance (non-adaptive build: level and degree were not raised)");
+
+  out.covariance = linear_fit_covariance(current.matrix, basis_matrix(families, current.indices, current.points),
+                                         cache.values(current.points), current.coefficients);
 
   Surrogate surrogate;
   surrogate.families = families;

@@ -51,6 +51,13 @@ struct Surrogate {
   Eigen::MatrixXd sobol_total() const;
 };
 
+/// Covariance of the coefficients of every column of a linear fit C = W·Y:
+/// Cov(C[:, c]) = residual_variance[c] · gram (expansion/grouped_sobol.h).
+struct CoefficientCovariance {
+  Eigen::MatrixXd gram;                // W Wᵀ, [P, P]
+  Eigen::VectorXd residual_variance;   // σ̂²_c = ‖Y_c − Ψ C_c‖² / (N − P), [n_columns]; NaN when N ≤ P
+};
+
 /// How the surrogate build ended.
 struct SurrogateSummary {
   std::string method;           // "sparse-grid", "tensor-grid", "regression"
@@ -74,6 +81,8 @@ struct SurrogateSummary {
   //                 note it is a ratio of squares, the others ratios of norms).
   Eigen::VectorXd error_estimate;
   std::vector<std::string> notes;  // what happened, e.g. "run budget reached at level 4"
+  // Of the final fit, from its design runs (for confidence intervals of Sobol indices).
+  CoefficientCovariance covariance;
 };
 
 /// Number of distinct model runs the configured design needs (for `check`): the

@@ -3,6 +3,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <mutex>
 
 #include "sigmatube/constraints/quantile_tube.h"
@@ -110,17 +111,18 @@ void input_share_stage(const LoadedCase& loaded, const expansion::Surrogate& sur
   const Eigen::LDLT<Eigen::MatrixXd> normal(gram_inverse_source);
   expansion::CoefficientCovariance cov;
   cov.gram = normal.solve(Eigen::MatrixXd::Identity(P, P));
-  Eigen::MatrixXd values;
-  surrogate.evaluate(points, values);  // [n, T·n_out]
-  for (std::size_t k = 0; k < loaded.constraints.size(); ++k) {
-    const auto& constraint = loaded.constraints[k];
-    Eigen::MatrixXd clearance(n, n_times);
-    for (int t = 0; t < n_times; ++t) {
-      const Eigen::MatrixXd block = values.middleCols(static_cast<Eigen::Index>(t) * n_out, n_out);
-      Eigen::VectorXd c(n);
-      constraint.clearance(block, r.time[static_cast<std::size_t>(t)], c);
-      clearance.col(t) = c;
+  // Clearances of every constraint at every time, one time's outputs at a time.
+  std::vector<Eigen::MatrixXd> clearances(loaded.constraints.size(), Eigen::MatrixXd(n, n_times));
+  for (int t = 0; t < n_times; ++t) {
+    const Eigen::MatrixXd block = basis * surrogate.coefficients.middleCols(static_cast<Eigen::Index>(t) * n_out, n_out);
+    Eigen::VectorXd c(n);
+    for (std::size_t k = 0; k < loaded.constraints.size(); ++k) {
+      loaded.constraints[k].clearance(block, r.time[static_cast<std::size_t>(t)], c);
+      clearances[k].col(t) = c;
     }
+  }
+  for (std::size_t k = 0; k < loaded.constraints.size(); ++k) {
+    const Eigen::MatrixXd& clearance = clearances[k];
     const Eigen::MatrixXd coefficients = normal.solve(basis.transpose() * clearance);
     cov.residual_variance = Eigen::VectorXd::Constant(n_times, std::numeric_limits<double>::quiet_NaN());
     if (n > P)

@@ -2,6 +2,7 @@
 #include "sigmatube/constraints/quantile_tube.h"
 
 #include <algorithm>
+#include <cmath>
 #include <stdexcept>
 
 #include "sigmatube/core/parallel.h"
@@ -17,7 +18,8 @@ Eigen::Index order_index(double level, Eigen::Index n) {
   return std::clamp<Eigen::Index>(k, 0, n - 1);
 }
 
-void quantiles_of(Eigen::VectorXd values, const std::vector<double>& levels, Eigen::Ref<Eigen::RowVectorXd> out) {
+void quantiles_of(Eigen::VectorXd values, const std::vector<double>& levels,
+                  Eigen::Ref<Eigen::RowVectorXd, 0, Eigen::InnerStride<>> out) {
   const Eigen::Index n = values.size();
   double* data = values.data();
   // Levels are sorted: each nth_element works on the part above the previous one.

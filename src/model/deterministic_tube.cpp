@@ -102,20 +102,6 @@ Bound scalar_bound(const casefile::UncertainOptions& u, double sigma, std::size_
   return b;
 }
 
-const char* distribution_word(DistributionKind k) {
-  switch (k) {
-    case DistributionKind::normal: return "normal";
-    case DistributionKind::uniform: return "uniform";
-    case DistributionKind::beta: return "beta";
-    case DistributionKind::gamma: return "gamma";
-    case DistributionKind::lognormal: return "lognormal";
-    case DistributionKind::truncated_normal: return "truncated-normal";
-    case DistributionKind::triangular: return "triangular";
-    case DistributionKind::gaussian_process: return "gaussian-process";
-  }
-  return "?";
-}
-
 // Largest eigenvalue of a symmetric matrix.
 double max_eigenvalue(const Eigen::MatrixXd& S) {
   return Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd>(S, Eigen::EigenvaluesOnly).eigenvalues().maxCoeff();
@@ -226,14 +212,20 @@ Evaluation evaluate(const std::vector<double>& times, const std::vector<int>& po
     if (P_out) *P_out = P;
   };
   double rho = 0.0;
+  bool unbounded = false;  // once the loop stops contracting, no radius from there on (the rate is still reported)
   for (Eigen::Index k = 0; k < T; ++k) {
     const double t = times[static_cast<std::size_t>(k)];
     double rate_k = 0.0, wbar_k = 0.0;
     Eigen::MatrixXd P;
     sample(t, rate_k, wbar_k, &P);
     ev.rate[k] = rate_k;
+    if (unbounded) continue;
+    if (P.size() == 0) {
+      unbounded = true;
+      ev.first_unbounded = t;
+      continue;
+    }
     if (k == 0) {
-      if (P.size() == 0) break;
       const Eigen::MatrixXd U = Eigen::LLT<Eigen::MatrixXd>(P).matrixU();
       rho = box_sup_norm(U * initial.asDiagonal());
     } else {
@@ -244,15 +236,15 @@ Evaluation evaluate(const std::vector<double>& times, const std::vector<int>& po
         sample(t0 + h * s / (kSamplesPerInterval - 1), r_s, w_s, nullptr);
         lam = std::min(lam, r_s), w = std::max(w, w_s);
       }
-      if (!(lam > 0.0) || !std::isfinite(w) || P.size() == 0) {
+      if (!(lam > 0.0) || !std::isfinite(w)) {
+        unbounded = true;
         ev.first_unbounded = t0;
-        break;
+        continue;
       }
       const double decay = std::exp(-lam * h);
       rho = decay * rho + w * (1.0 - decay) / lam;
     }
-    const Eigen::MatrixXd Pinv = P.inverse();
-    ev.radius[k] = rho * std::sqrt(std::max(0.0, max_eigenvalue(C * Pinv * C.transpose())));
+    ev.radius[k] = rho * std::sqrt(std::max(0.0, max_eigenvalue(C * P.inverse() * C.transpose())));
   }
   if (ev.radius.allFinite()) ev.score = ev.radius.mean();
   return ev;
@@ -287,7 +279,7 @@ TubeInputBounds tube_input_bounds(const std::vector<casefile::UncertainOptions>&
   const Eigen::VectorXd p0 = model.parameters();
   for (const auto& u : inputs) {
     std::ostringstream line;
-    line << u.name << " (" << distribution_word(u.distribution) << "): ";
+    line << u.name << ": ";
     bool any_sigma = false;
     for (std::size_t c = 0; c < u.applies_to.size(); ++c) {
       const std::string& target = u.applies_to[c];

@@ -53,13 +53,13 @@ fs::path make_result(const fs::path& folder) {
 }  // namespace
 
 TEST(CsvExport, FilesCarryUnitsAndMatchTheResultFile) {
-  test::TemporaryFolder folder;
+  result::testing::TemporaryFolder folder;
   const fs::path h5 = make_result(folder.path);
   const fs::path out = folder.path / "csv";
   ASSERT_EQ(run_cli("export " + h5.string() + " -d " + out.string()), 0);
   for (const char* name : {"nominal.csv", "mean.csv", "std.csv", "quantiles.csv", "probabilities.csv", "tube.csv"})
     EXPECT_TRUE(fs::exists(out / name)) << name;
-  const std::string report = test::run_python(
+  const std::string report = result::testing::run_python(
       "import csv, h5py, numpy as np\n"
       "d = '" + out.string() + "/'\n"
       "f = h5py.File('" + h5.string() + "', 'r')\n"
@@ -86,7 +86,7 @@ TEST(CsvExport, FilesCarryUnitsAndMatchTheResultFile) {
 }
 
 TEST(CsvExport, RefusesExistingFilesWithoutForceAndWritesNothing) {
-  test::TemporaryFolder folder;
+  result::testing::TemporaryFolder folder;
   const fs::path h5 = make_result(folder.path);
   const fs::path out = folder.path / "csv";
   fs::create_directories(out);

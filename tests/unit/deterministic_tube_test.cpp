@@ -49,7 +49,7 @@ std::string scalar_case(const std::string& tube_table) {
 TEST(DeterministicTube, ScalarFirstOrderLoopBoundIsTheExactWorstCase) {
   // Closed form: ė = −a e + w, |e0| ≤ ē, |w| ≤ w̄ gives the attained worst case
   // e(t) = e^{−at} ē + (w̄/a)(1 − e^{−at}) (e0 = ē, w ≡ w̄).
-  test::TemporaryFolder folder;
+  result::testing::TemporaryFolder folder;
   const app::LoadedCase loaded =
       write_and_load(folder.path, scalar_case("[tube]\nposition = [\"x\"]\n"), "t,x,u\n0,0,0\n20,0,0\n");
   const auto& cl = *loaded.closed_loop;
@@ -76,7 +76,7 @@ TEST(DeterministicTube, NoMonteCarloRunLeavesTheBoundOfABoundedCase) {
   // An invented two-state loop ẍ = u + w (x, v), fixed gain u = −x − 1.4 v, with
   // bounded initial errors (uniform, triangular), a bounded disturbance (uniform)
   // and a bounded input bias (beta): every full-model run stays inside r(t).
-  test::TemporaryFolder folder;
+  result::testing::TemporaryFolder folder;
   const std::string toml =
       "title = \"invented two-state loop\"\n"
       "[model]\nstates = [\"x\", \"v\"]\ninputs = [\"u\"]\nrhs = { x = \"v\", v = \"u\" }\n"
@@ -106,7 +106,7 @@ TEST(DeterministicTube, NoMonteCarloRunLeavesTheBoundOfABoundedCase) {
 TEST(DeterministicTube, TimeVaryingLqrLoopUsesItsRiccatiMetricAndHoldsOnBoundedInputs) {
   // The built-in Hill–Clohessy–Wiltshire model tracked by time-varying LQR along an
   // invented 600 s approach; bounded initial errors and thrust-gain error.
-  test::TemporaryFolder folder;
+  result::testing::TemporaryFolder folder;
   const std::string toml =
       "title = \"invented HCW approach with bounded errors\"\n"
       "[model]\nbuiltin = \"hill-clohessy-wiltshire\"\n"
@@ -135,7 +135,7 @@ TEST(DeterministicTube, TimeVaryingLqrLoopUsesItsRiccatiMetricAndHoldsOnBoundedI
 
 TEST(DeterministicTube, SaysNoBoundWhereTheLoopDoesNotContract) {
   // ẋ = x + u with u = −0.5 x: A_cl = +0.5, the loop diverges; no metric contracts.
-  test::TemporaryFolder folder;
+  result::testing::TemporaryFolder folder;
   const std::string toml =
       "[model]\nstates = [\"x\"]\ninputs = [\"u\"]\nrhs = { x = \"x + u\" }\n"
       "[plan]\nfile = \"plan.csv\"\n[control]\nlaw = \"gain\"\ngain = [[0.5]]\n[simulation]\nreport_every = 1\n"
@@ -169,7 +169,7 @@ TEST(DeterministicTube, LyapunovSolutionMatchesSciPy) {
 }
 
 TEST(DeterministicTube, WrittenToHdf5AndReadByH5py) {
-  test::TemporaryFolder folder;
+  result::testing::TemporaryFolder folder;
   const app::LoadedCase loaded =
       write_and_load(folder.path, scalar_case("[tube]\nposition = [\"x\"]\n"), "t,x,u\n0,0,0\n20,0,0\n");
   app::AnalysisOptions options;
@@ -178,7 +178,7 @@ TEST(DeterministicTube, WrittenToHdf5AndReadByH5py) {
   const result::AnalysisResult r = app::analyze_case(loaded, options);
   const auto path = folder.path / "r.h5";
   result::write_result_file(r, path.string(), false);
-  const std::string out = test::run_python(
+  const std::string out = result::testing::run_python(
       "import h5py, numpy as np\n"
       "f = h5py.File('" + path.string() + "', 'r')\n"
       "r = f['/tube/radius']\n"
@@ -207,7 +207,7 @@ TEST(InputShareStage, SharesOfTheScalarLoopMatchTheClosedForm) {
   // share of "start" is V0/(V0 + Vw) with V0 = e^{−2at}·0.16/3 and
   // Vw = ((1 − e^{−at})/a)²·0.01/3, for the output x and for the clearance
   // 0.6 − x of the half-space x ≤ 0.6 alike (linear, so no interaction).
-  test::TemporaryFolder folder;
+  result::testing::TemporaryFolder folder;
   const app::LoadedCase loaded = write_and_load(
       folder.path,
       scalar_case("[[constraint]]\nname = \"ceiling\"\ntype = \"half-space\"\nposition = [\"x\"]\nnormal = [1]\n"

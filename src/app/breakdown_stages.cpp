@@ -25,14 +25,10 @@ constexpr double kExceedanceSlack = 1e-6;
 Eigen::MatrixXd stream_points(const germ::Germ& germ, unsigned long long stream_seed, long long n) {
   const int d = germ.dimension();
   const CounterRng rng(stream_seed);
-  Eigen::MatrixXd xi(n, d);
-  std::vector<double> z(static_cast<std::size_t>(d)), x(static_cast<std::size_t>(d));
-  for (Eigen::Index i = 0; i < n; ++i) {
-    for (int j = 0; j < d; ++j) z[static_cast<std::size_t>(j)] = rng.normal(static_cast<std::uint64_t>(i), static_cast<std::uint64_t>(j));
-    germ.from_standard_normal(z.data(), x.data());
-    for (int j = 0; j < d; ++j) xi(i, j) = x[static_cast<std::size_t>(j)];
-  }
-  return xi;
+  Eigen::MatrixXd z(n, d);
+  for (Eigen::Index i = 0; i < n; ++i)
+    for (int j = 0; j < d; ++j) z(i, j) = rng.normal(static_cast<std::uint64_t>(i), static_cast<std::uint64_t>(j));
+  return germ::germ_points(germ, z);
 }
 
 result::Cube rows_to_cube(const Eigen::MatrixXd& flat, int n_times, int n_outputs) {

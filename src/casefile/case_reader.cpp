@@ -77,7 +77,7 @@ std::string existing_file_beside_case(const TomlTable& t, const std::string& key
 
 // ---------------------------------------------------------------- [model]
 
-const std::vector<std::string> kModelKeys = {"builtin", "plugin", "states", "inputs", "parameters", "rhs", "outputs"};
+const std::vector<std::string> kModelKeys = {"builtin", "plugin", "states", "inputs", "parameters", "rhs", "outputs", "units"};
 
 std::vector<NamedValue> read_named_values(const TomlTable& table, const std::string& key) {
   std::vector<NamedValue> out;
@@ -114,10 +114,12 @@ ModelOptions read_model(const TomlTable& t, const std::string& case_path) {
   ModelOptions model;
   model.where = t.where();
   model.key_where = t.key_locations();
+  // Names are checked against the model's states, inputs and outputs when the case is loaded.
+  model.units = read_named_expressions(t, "units");
   if (t.has("plugin")) {
     // A shared library with the C interface of sigmatube/model_plugin.h; its
     // names and counts are checked when it is loaded (model/plugin_model.h).
-    t.check_keys_for_kind({"plugin", "parameters", "outputs"}, kModelKeys, "a model plugin");
+    t.check_keys_for_kind({"plugin", "parameters", "outputs", "units"}, kModelKeys, "a model plugin");
     model.plugin = t.string("plugin");
     if (model.plugin.empty()) t.fail("plugin", "must name a shared library");
     model.plugin_path = existing_file_beside_case(t, "plugin", model.plugin, case_path, "model plugin");
@@ -127,7 +129,7 @@ ModelOptions read_model(const TomlTable& t, const std::string& case_path) {
     // A built-in takes its parameters by name directly in [model] (or in a
     // parameters table); the names are checked against the model later.
     for (const auto& [key, node] : t.entries_in_file_order()) {
-      if (key == "builtin" || key == "parameters" || key == "outputs") continue;
+      if (key == "builtin" || key == "parameters" || key == "outputs" || key == "units") continue;
       if (key == "states" || key == "inputs" || key == "rhs")
         t.fail(key, "key '" + key + "' does not belong to a built-in model (it takes: builtin, outputs, parameters and "
                     "its parameters by name)");
@@ -640,6 +642,19 @@ MonteCarloOptions read_montecarlo(const TomlTable& t) {
   return m;
 }
 
+TubeOptions read_tube(const TomlTable& t) {
+  TubeOptions o;
+  o.where = t.where();
+  o.key_where = t.key_locations();
+  t.check_keys({"position", "sigma"}, "key");
+  if (!t.has("position")) t.missing("position");
+  o.position = t.strings("position");
+  require_unique(t, "position", o.position);
+  o.sigma = t.number_or("sigma", o.sigma);
+  require_positive(t, "sigma", o.sigma);
+  return o;
+}
+
 template <class Entry>
 void require_unique_names(const std::vector<Entry>& entries, const std::string& what) {
   for (std::size_t i = 0; i < entries.size(); ++i)
@@ -656,7 +671,7 @@ CaseOptions read_case(const std::string& path) {
   const toml::table root_table = detail::parse_toml_file(path, "case file");
   const TomlTable root(path, root_table, "", 0);
   root.check_keys({"title", "model", "plan", "control", "simulation", "uncertain", "constraint", "surrogate",
-                   "montecarlo"},
+                   "montecarlo", "tube"},
                   "top-level key or table");
   CaseOptions options;
   options.path = path;
@@ -700,6 +715,7 @@ CaseOptions read_case(const std::string& path) {
   else options.surrogate.where = {path, 0, "surrogate"};
   if (auto montecarlo = root.table("montecarlo")) options.montecarlo = read_montecarlo(*montecarlo);
   else options.montecarlo.where = {path, 0, "montecarlo"};
+  if (auto tube = root.table("tube")) options.tube = read_tube(*tube);
   return options;
 }
 

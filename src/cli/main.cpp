@@ -20,6 +20,7 @@
 #include "sigmatube/core/distributed.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/result/compare.h"
+#include "sigmatube/result/csv_export.h"
 #include "sigmatube/result/html_report.h"
 #include "sigmatube/result/json_summary.h"
 #include "sigmatube/result/result_file.h"
@@ -140,6 +141,12 @@ int main(int argc, char** argv) {
   report->add_option("--plane-y", plane_y, "output on the vertical axis of the path plot (e.g. x)");
   report->add_flag("--force", common.force, "overwrite existing output files");
 
+  auto* export_csv = cli.add_subcommand("export", "Write the time series of a result as CSV files into a folder.");
+  export_csv->add_option("RESULT", case_path, "result file (HDF5)")->required();
+  export_csv->add_option("-d,--directory", directory, "folder for the CSV files (created if missing)")->required();
+  export_csv->add_flag("--force", common.force, "overwrite existing output files");
+  export_csv->add_flag("--quiet", common.quiet, "print nothing but errors");
+
   try {
     cli.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -249,6 +256,12 @@ int main(int argc, char** argv) {
       options.plane_y = plane_y;
       result::write_text_file(result::html_report(stored, options), output, common.force);
       say(common, "wrote " + output + "\n");
+      return 0;
+    }
+    if (export_csv->parsed()) {
+      const result::AnalysisResult stored = result::read_result_file(case_path);
+      for (const auto& path : result::write_csv_export(stored, directory, case_path, common.force))
+        say(common, "wrote " + path + "\n");
       return 0;
     }
   } catch (const InputError& e) {

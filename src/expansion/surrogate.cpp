@@ -15,6 +15,7 @@
 #include "sigmatube/expansion/multi_index.h"
 #include "sigmatube/expansion/polynomial_basis.h"
 #include "sigmatube/expansion/pseudo_spectral_projection.h"
+#include "sigmatube/expansion/grouped_sobol.h"
 #include "sigmatube/expansion/regression.h"
 #include "sigmatube/expansion/sobol_indices.h"
 #include "sigmatube/expansion/tensor_projection.h"
@@ -272,6 +273,8 @@ struct Fit {
   MultiIndexSet indices;
   Eigen::MatrixXd coefficients;  // [P, n_columns]
   Eigen::VectorXd column_mse;    // regression: corrected leave-one-out mean squared error per column
+  Eigen::MatrixXd matrix;        // W of the fit, [P, N]
+  Eigen::MatrixXd points;        // its design points, [N, d]
 };
 
 Fit fit(const std::vector<germ::FamilySpec>& families, const casefile::SurrogateOptions& options, const Design& design,
@@ -279,22 +282,26 @@ Fit fit(const std::vector<germ::FamilySpec>& families, const casefile::Surrogate
   const Eigen::MatrixXd values = cache.values(design.points);
   Fit result;
   result.setting = design.setting;
+  result.points = design.points;
   switch (options.method) {
     case casefile::SurrogateMethod::sparse_grid: {
       const LinearProjection projection = sparse_pseudo_spectral_projection(families, design.grid);
       result.indices = projection.indices;
       result.coefficients.noalias() = projection.matrix * values;
+      result.matrix = projection.matrix;
       break;
     }
     case casefile::SurrogateMethod::tensor_grid:
       result.indices = design.tensor.indices;
       result.coefficients.noalias() = design.tensor.matrix * values;
+      result.matrix = design.tensor.matrix;
       break;
     case casefile::SurrogateMethod::regression: {
       const RegressionProjection projection = regression_on_points(families, design.indices, design.points);
       result.indices = projection.indices;
       result.coefficients.noalias() = projection.matrix * values;
       result.column_mse = corrected_leave_one_out_mse(projection, values, result.coefficients);
+      result.matrix = projection.matrix;
       break;
     }
     case casefile::SurrogateMethod::adaptive_sparse_grid:
@@ -531,6 +538,8 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
     out.notes.push_back("error estimate above tolerance (non-adaptive build: level and degree were not raised)");
   finish_summary(out, cache, n_times, n_outputs, history);
 
+  out.covariance = linear_fit_covariance(current.matrix, basis_matrix(families, current.indices, current.points),
+                                         cache.values(current.points), current.coefficients);
   return make_surrogate(families, std::move(current.indices), std::move(current.coefficients), n_times, n_outputs);
 }
 

@@ -387,6 +387,23 @@ Germ Germ::build(const std::vector<casefile::UncertainOptions>& inputs, const Ta
   return germ;
 }
 
+std::vector<std::string> Germ::input_names() const {
+  std::vector<std::string> names;
+  for (const Block& block : blocks_) names.push_back(block.input);
+  return names;
+}
+
+std::vector<std::vector<int>> Germ::input_dimensions() const {
+  std::vector<std::vector<int>> groups;
+  for (std::size_t b = 0; b < blocks_.size(); ++b) {
+    const int end = b + 1 < blocks_.size() ? blocks_[b + 1].first : dimension();
+    std::vector<int> dims;
+    for (int j = blocks_[b].first; j < end; ++j) dims.push_back(j);
+    groups.push_back(std::move(dims));
+  }
+  return groups;
+}
+
 void Germ::add_to_target(const Target& target, double x, int n_times, model::Perturbation& perturbation) {
   switch (target.kind) {
     case TargetKind::initial: perturbation.initial_offset(target.index) += x; return;

@@ -67,6 +67,22 @@ ClosedLoop::ClosedLoop(std::shared_ptr<const Model> model, const casefile::CaseO
   const auto& derived = model_->derived_output_names();
   output_names_.insert(output_names_.end(), derived.begin(), derived.end());
   for (const auto& input : inputs) output_names_.push_back("cmd." + input);
+
+  // Units: the case file's [model] units, else the model's own; cmd.<input> has its input's.
+  std::vector<std::string> named = model_->state_names();
+  named.insert(named.end(), derived.begin(), derived.end());
+  named.insert(named.end(), inputs.begin(), inputs.end());
+  for (const auto& entry : options.model.units)
+    if (std::find(named.begin(), named.end(), entry.name) == named.end())
+      throw InputError(entry.where, "'" + entry.name + "' is not a state, input or output of model '" +
+                                        model_->name() + "'" + casefile::suggestion_or_list(entry.name, named));
+  const auto unit_of = [&](const std::string& name) {
+    for (const auto& entry : options.model.units)
+      if (entry.name == name) return entry.text;
+    return model_->unit(name);
+  };
+  for (const auto& name : output_names_)
+    output_units_.push_back(name.rfind("cmd.", 0) == 0 ? unit_of(name.substr(4)) : unit_of(name));
 }
 
 ClosedLoop::~ClosedLoop() = default;

@@ -143,6 +143,101 @@ void write_surrogate(H5::H5File& file, const AnalysisResult& r) {
   write_strings(g, "notes", s.notes);
 }
 
+// A string-array attribute ([n], UTF-8).
+void write_attribute_strings(H5::H5Object& object, const std::string& name, const std::vector<std::string>& values) {
+  const H5::StrType type = utf8_string_type();
+  const hsize_t dims[1] = {values.size()};
+  H5::Attribute attribute = object.createAttribute(name, type, H5::DataSpace(1, dims));
+  std::vector<const char*> pointers;
+  for (const auto& v : values) pointers.push_back(v.c_str());
+  if (!pointers.empty()) attribute.write(type, pointers.data());
+}
+
+void write_attribute_doubles(H5::H5Object& object, const std::string& name, const std::vector<double>& values) {
+  const hsize_t dims[1] = {values.size()};
+  H5::Attribute attribute = object.createAttribute(name, H5::PredType::NATIVE_DOUBLE, H5::DataSpace(1, dims));
+  if (!values.empty()) attribute.write(H5::PredType::NATIVE_DOUBLE, values.data());
+}
+
+// Units [n_out] on a dataset whose last axis runs over the outputs.
+void write_units(H5::Group& group, const std::string& dataset, const AnalysisResult& r) {
+  if (r.output_units.size() != r.output_names.size() || !H5Lexists(group.getId(), dataset.c_str(), H5P_DEFAULT)) return;
+  H5::DataSet ds = group.openDataSet(dataset);
+  write_attribute_strings(ds, "units", r.output_units);
+}
+
+// Quantile tubes, variance shares per input, the deterministic tube and units
+// (docs/result-file.md).
+void write_breakdown(H5::H5File& file, const AnalysisResult& r) {
+  const hsize_t n_out = r.output_names.size();
+  {
+    H5::Group outputs = file.openGroup("/outputs");
+    write_units(outputs, "names", r);
+    H5::Group nominal = file.openGroup("/nominal");
+    write_units(nominal, "outputs", r);
+  }
+  const SurrogateResult& s = r.surrogate;
+  if (s.done) {
+    H5::Group g = file.openGroup("/surrogate");
+    write_units(g, "mean", r);
+    write_units(g, "std", r);
+    if (!s.quantiles.empty()) {
+      write_cube(g, "quantiles", s.quantiles, n_out, s.quantile_levels.size());
+      H5::DataSet ds = g.openDataSet("quantiles");
+      write_attribute_doubles(ds, "levels", s.quantile_levels);
+      write_attribute(ds, "samples", s.quantile_samples);
+      write_units(g, "quantiles", r);
+    }
+    if (!s.sobol_first_by_input.empty()) {
+      const hsize_t G = s.input_names.size();
+      write_strings(g, "input_names", s.input_names);
+      write_cube(g, "sobol_first_by_input", s.sobol_first_by_input, n_out, G);
+      write_cube(g, "sobol_total_by_input", s.sobol_total_by_input, n_out, G);
+      write_cube(g, "sobol_first_by_input_lower", s.sobol_first_by_input_lower, n_out, G);
+      write_cube(g, "sobol_first_by_input_upper", s.sobol_first_by_input_upper, n_out, G);
+      write_cube(g, "sobol_total_by_input_lower", s.sobol_total_by_input_lower, n_out, G);
+      write_cube(g, "sobol_total_by_input_upper", s.sobol_total_by_input_upper, n_out, G);
+      write_attribute(g, "sobol_confidence", s.sobol_confidence);
+    }
+  }
+  for (const auto& c : r.constraints) {
+    if (c.sobol_first_by_input.size() == 0) continue;
+    H5::Group g = file.openGroup("/constraints/" + c.name);
+    write_matrix(g, "sobol_first_by_input", c.sobol_first_by_input);
+    write_matrix(g, "sobol_total_by_input", c.sobol_total_by_input);
+    write_matrix(g, "sobol_first_by_input_lower", c.sobol_first_by_input_lower);
+    write_matrix(g, "sobol_first_by_input_upper", c.sobol_first_by_input_upper);
+    write_matrix(g, "sobol_total_by_input_lower", c.sobol_total_by_input_lower);
+    write_matrix(g, "sobol_total_by_input_upper", c.sobol_total_by_input_upper);
+  }
+  if (r.montecarlo.done) {
+    H5::Group g = file.openGroup("/montecarlo");
+    write_units(g, "mean", r);
+    write_units(g, "std", r);
+  }
+  const TubeResult& t = r.tube;
+  if (t.done) {
+    H5::Group g = file.createGroup("/tube");
+    write_vector(g, "radius", t.radius);
+    write_vector(g, "rate", t.rate);
+    write_matrix(g, "metric", t.metric);
+    H5::DataSet radius = g.openDataSet("radius");
+    const double finite_rate = t.rate.size() ? t.rate.minCoeff() : kNaN;
+    write_attribute(radius, "rate", finite_rate);
+    write_attribute(radius, "metric", t.metric_kind);
+    write_attribute_strings(radius, "assumptions", t.assumptions);
+    write_attribute(radius, "units", t.units);
+    write_attribute(g, "sigma", t.sigma);
+    write_attribute(g, "bounded", static_cast<long long>(t.bounded ? 1 : 0));
+    write_attribute(g, "no_bound_reason", t.no_bound_reason);
+    write_strings(g, "position", t.position);
+    write_scalar_int(g, "runs_checked", t.runs_checked);
+    write_scalar(g, "largest_observed_deviation", t.largest_observed_deviation);
+    write_scalar(g, "conservatism", t.conservatism);
+    write_scalar_int(g, "exceedances", t.exceedances);
+  }
+}
+
 void write_constraint(H5::Group& parent, const ConstraintResult& c) {
   H5::Group g = parent.createGroup(c.name);
   write_attribute(g, "type", c.type);
@@ -268,6 +363,7 @@ void write_all(const AnalysisResult& r, const std::string& path) {
     for (const auto& c : r.constraints) write_constraint(g, c);
   }
   if (r.montecarlo.done) write_montecarlo(file, r);
+  write_breakdown(file, r);
   file.close();
 }
 
@@ -406,6 +502,38 @@ struct Reader {
     return v;
   }
 
+  std::vector<std::string> attribute_strings(const H5::H5Object& o, const std::string& name) const {
+    std::vector<std::string> out;
+    if (!has_attribute(o, name)) return out;
+    H5::Attribute a = o.openAttribute(name);
+    H5::DataSpace space = a.getSpace();
+    if (space.getSimpleExtentNdims() != 1) fail("attribute '" + name + "' is not a list of strings");
+    hsize_t n = 0;
+    space.getSimpleExtentDims(&n);
+    if (n == 0) return out;
+    H5::StrType file_type = a.getStrType();
+    if (!file_type.isVariableStr()) fail("attribute '" + name + "' is not a list of variable-length strings");
+    H5::StrType memory_type(H5::PredType::C_S1, H5T_VARIABLE);
+    memory_type.setCset(file_type.getCset());
+    std::vector<char*> pointers(n, nullptr);
+    a.read(memory_type, pointers.data());
+    for (char* p : pointers) out.emplace_back(p ? p : "");
+    H5Dvlen_reclaim(memory_type.getId(), space.getId(), H5P_DEFAULT, pointers.data());
+    return out;
+  }
+
+  std::vector<double> attribute_doubles(const H5::H5Object& o, const std::string& name) const {
+    std::vector<double> out;
+    if (!has_attribute(o, name)) return out;
+    H5::Attribute a = o.openAttribute(name);
+    H5::DataSpace space = a.getSpace();
+    const hssize_t n = space.getSimpleExtentNpoints();
+    if (n < 0) fail("attribute '" + name + "' has no size");
+    out.resize(static_cast<std::size_t>(n));
+    if (n > 0) a.read(H5::PredType::NATIVE_DOUBLE, out.data());
+    return out;
+  }
+
   std::vector<std::string> children(const H5::Group& g) const {
     std::vector<std::string> names;
     for (hsize_t i = 0; i < g.getNumObjs(); ++i) names.push_back(g.getObjnameByIdx(i));
@@ -418,6 +546,67 @@ void read_pair(const Reader& reader, const H5::Group& g, const std::string& name
   if (v.size() != 2) reader.fail("dataset '" + name + "' must hold two values");
   out[0] = v[0];
   out[1] = v[1];
+}
+
+
+// The optional parts write_breakdown adds; absent in files of older versions.
+void read_breakdown(const Reader& reader, H5::H5File& file, AnalysisResult& r) {
+  H5::Group root = file.openGroup("/");
+  {
+    H5::DataSet names = file.openGroup("/outputs").openDataSet("names");
+    r.output_units = reader.attribute_strings(names, "units");
+    if (r.output_units.size() != r.output_names.size()) r.output_units.assign(r.output_names.size(), "");
+  }
+  if (r.surrogate.done) {
+    SurrogateResult& s = r.surrogate;
+    H5::Group g = file.openGroup("/surrogate");
+    if (Reader::exists(g, "quantiles")) {
+      s.quantiles = reader.cube(g, "quantiles");
+      H5::DataSet ds = g.openDataSet("quantiles");
+      s.quantile_levels = reader.attribute_doubles(ds, "levels");
+      s.quantile_samples = reader.attribute_int(ds, "samples", 0);
+    }
+    if (Reader::exists(g, "sobol_first_by_input")) {
+      s.input_names = reader.strings(g, "input_names");
+      s.sobol_first_by_input = reader.cube(g, "sobol_first_by_input");
+      s.sobol_total_by_input = reader.cube(g, "sobol_total_by_input");
+      s.sobol_first_by_input_lower = reader.cube(g, "sobol_first_by_input_lower");
+      s.sobol_first_by_input_upper = reader.cube(g, "sobol_first_by_input_upper");
+      s.sobol_total_by_input_lower = reader.cube(g, "sobol_total_by_input_lower");
+      s.sobol_total_by_input_upper = reader.cube(g, "sobol_total_by_input_upper");
+      s.sobol_confidence = reader.attribute_double(g, "sobol_confidence", kNaN);
+    }
+  }
+  for (auto& c : r.constraints) {
+    H5::Group g = file.openGroup("/constraints/" + c.name);
+    if (!Reader::exists(g, "sobol_first_by_input")) continue;
+    c.sobol_first_by_input = reader.matrix(g, "sobol_first_by_input");
+    c.sobol_total_by_input = reader.matrix(g, "sobol_total_by_input");
+    c.sobol_first_by_input_lower = reader.matrix(g, "sobol_first_by_input_lower");
+    c.sobol_first_by_input_upper = reader.matrix(g, "sobol_first_by_input_upper");
+    c.sobol_total_by_input_lower = reader.matrix(g, "sobol_total_by_input_lower");
+    c.sobol_total_by_input_upper = reader.matrix(g, "sobol_total_by_input_upper");
+  }
+  if (Reader::exists(root, "tube")) {
+    TubeResult& t = r.tube;
+    t.done = true;
+    H5::Group g = file.openGroup("/tube");
+    t.radius = reader.vector(g, "radius");
+    t.rate = reader.vector(g, "rate");
+    t.metric = reader.matrix(g, "metric");
+    H5::DataSet radius = g.openDataSet("radius");
+    t.metric_kind = reader.attribute_string(radius, "metric");
+    t.assumptions = reader.attribute_strings(radius, "assumptions");
+    t.units = reader.attribute_string(radius, "units");
+    t.sigma = reader.attribute_double(g, "sigma", kNaN);
+    t.bounded = reader.attribute_int(g, "bounded", 1) != 0;
+    t.no_bound_reason = reader.attribute_string(g, "no_bound_reason");
+    t.position = reader.strings(g, "position");
+    t.runs_checked = reader.scalar_int(g, "runs_checked");
+    t.largest_observed_deviation = reader.scalar(g, "largest_observed_deviation");
+    t.conservatism = reader.scalar(g, "conservatism");
+    t.exceedances = reader.scalar_int(g, "exceedances");
+  }
 }
 
 AnalysisResult read_all(const std::string& path) {
@@ -583,6 +772,7 @@ AnalysisResult read_all(const std::string& path) {
       }
     }
   }
+  read_breakdown(reader, file, r);
   return r;
 }
 

@@ -358,6 +358,27 @@ std::string summary_text(const AnalysisResult& r, bool color) {
         << "\n";
   }
 
+  const TubeResult& tube = r.tube;
+  if (tube.done) {
+    out << "\nDeterministic tube (worst case inside the input bounds, linearized loop)\n";
+    std::string position;
+    for (const auto& name : tube.position) position += (position.empty() ? "" : ", ") + name;
+    const std::string unit = tube.units.empty() ? "" : " " + tube.units;
+    out << "  position     " << position << "\n";
+    out << "  metric       " << tube.metric_kind << "\n";
+    if (tube.bounded && tube.radius.size() > 0)
+      out << "  radius       " << format_value(tube.radius[0]) << unit << " at the start, "
+          << format_value(tube.radius.maxCoeff()) << unit << " at most, rate >= "
+          << format_value(tube.rate.minCoeff()) << " 1/s\n";
+    else
+      out << "  radius       " << tube.no_bound_reason << "\n";
+    if (tube.runs_checked > 0)
+      out << "  check        " << tube.runs_checked << " Monte Carlo runs, " << tube.exceedances
+          << " (run, time) pairs above the bound; bound / largest deviation " << format_value(tube.conservatism)
+          << "\n";
+    for (const auto& a : tube.assumptions) out << "  assumes      " << a << "\n";
+  }
+
   const int code = r.verdict_exit_code();
   out << "\n" << paint(exit_verdict_line(r), code == 0 ? kGreen : kRed, color) << "\n";
   out << "\n" << cautions_text() << "\n";

@@ -54,6 +54,9 @@ struct ModelOptions {
   std::vector<NamedValue> parameters;      // built-in, plugin: overrides by name; expression: all parameters
   std::vector<NamedExpression> rhs;        // expression model: d(state)/dt, one per state
   std::vector<NamedExpression> outputs;    // derived outputs, optional
+  // `units = { name = "unit", … }`: unit text per state, input or derived output
+  // (text = the unit); a built-in's own units apply where none is given.
+  std::vector<NamedExpression> units;
   SourceLocation where;
   KeyLocations key_where;
 };
@@ -220,6 +223,14 @@ struct MonteCarloOptions {
   KeyLocations key_where;
 };
 
+/// [tube]: the deterministic tube bound (model/deterministic_tube.h).
+struct TubeOptions {
+  std::vector<std::string> position;  // state names forming p
+  double sigma = 3.0;                 // unbounded inputs are cut at mean ± sigma·std (an assumption)
+  SourceLocation where;
+  KeyLocations key_where;
+};
+
 /// A whole case file.
 struct CaseOptions {
   std::string title;
@@ -232,6 +243,7 @@ struct CaseOptions {
   std::vector<ConstraintOptions> constraints;
   SurrogateOptions surrogate;
   MonteCarloOptions montecarlo;
+  std::optional<TubeOptions> tube;  // absent: no deterministic tube
 };
 
 }  // namespace sigmatube::casefile

@@ -57,6 +57,12 @@ struct Surrogate {
 const char* method_name(casefile::SurrogateMethod method);
 /// The two methods that choose their own index set (always adaptive).
 bool is_dimension_adaptive(casefile::SurrogateMethod method);
+/// Covariance of the coefficients of every column of a linear fit C = W·Y:
+/// Cov(C[:, c]) = residual_variance[c] · gram (expansion/grouped_sobol.h).
+struct CoefficientCovariance {
+  Eigen::MatrixXd gram;                // W Wᵀ, [P, P]
+  Eigen::VectorXd residual_variance;   // σ̂²_c = ‖Y_c − Ψ C_c‖² / (N − P), [n_columns]; NaN when N ≤ P
+};
 
 /// How the surrogate build ended.
 struct SurrogateSummary {
@@ -81,6 +87,8 @@ struct SurrogateSummary {
   //     J. Comput. Phys. 230, 2011; Chapelle, Vapnik & Bengio 2002), no extra runs.
   Eigen::VectorXd error_estimate;
   std::vector<std::string> notes;  // what happened, e.g. "run budget reached at level 4"
+  // Of the final fit, from its design runs (for confidence intervals of Sobol indices).
+  CoefficientCovariance covariance;
 };
 
 /// Number of distinct model runs the configured design needs (for `check`): the

@@ -94,6 +94,13 @@ struct ConstraintResult {
   ImportanceSamplingResult importance_sampling;
   std::string agreement;  // "agree" | "disagree" | "too few runs to tell" | "" (no cross-check)
   std::string agreement_cause;
+
+  // Variance shares of the clearance per uncertain input (case-file order),
+  // [T, n_uncertain], from a regression of the clearance on the surrogate basis;
+  // lower/upper: delta-method interval at SurrogateResult::sobol_confidence.
+  Eigen::MatrixXd sobol_first_by_input, sobol_total_by_input;
+  Eigen::MatrixXd sobol_first_by_input_lower, sobol_first_by_input_upper;
+  Eigen::MatrixXd sobol_total_by_input_lower, sobol_total_by_input_upper;
 };
 
 struct MonteCarloResult {
@@ -135,6 +142,39 @@ struct SurrogateResult {
   long long samples = 0;                      // surrogate samples for probabilities
   double joint_path_probability = kNaN;
   std::vector<std::string> karhunen_loeve;    // one line per gaussian-process input
+
+  // Quantile tubes: levels (sorted) and T entries of [n_out, k].
+  std::vector<double> quantile_levels;
+  Cube quantiles;
+  long long quantile_samples = 0;
+  // Variance shares per uncertain input: T entries of [n_out, n_uncertain], inputs
+  // in case-file order (input_names), with delta-method intervals.
+  std::vector<std::string> input_names;
+  Cube sobol_first_by_input, sobol_total_by_input;
+  Cube sobol_first_by_input_lower, sobol_first_by_input_upper;
+  Cube sobol_total_by_input_lower, sobol_total_by_input_upper;
+  double sobol_confidence = kNaN;
+};
+
+/// The deterministic tube (model/deterministic_tube.h).
+struct TubeResult {
+  bool done = false;
+  std::vector<std::string> position;  // state names forming p
+  std::string units;                  // unit of the radius (the position's, when they agree)
+  Eigen::VectorXd radius;             // [T], NaN = no bound
+  Eigen::VectorXd rate;               // [T], contraction rate, 1/s
+  Eigen::MatrixXd metric;             // P(t0)
+  std::string metric_kind;
+  double sigma = kNaN;                // [tube] sigma
+  bool bounded = true;
+  std::string no_bound_reason;
+  std::vector<std::string> assumptions;
+  // Against the kept Monte Carlo runs: largest ‖p − p_nom‖ seen, the bound at
+  // that time divided by it, and how many (run, time) pairs exceeded the bound.
+  long long runs_checked = 0;
+  double largest_observed_deviation = kNaN;
+  double conservatism = kNaN;
+  long long exceedances = 0;
 };
 
 struct AnalysisResult {
@@ -150,11 +190,13 @@ struct AnalysisResult {
 
   std::vector<double> time;                 // [T]
   std::vector<std::string> output_names;    // [n_out]
+  std::vector<std::string> output_units;    // [n_out], "" = not given
   Eigen::MatrixXd nominal_outputs;          // [T, n_out]
 
   SurrogateResult surrogate;
   std::vector<ConstraintResult> constraints;
   MonteCarloResult montecarlo;
+  TubeResult tube;
 
   /// Exit code of product.md §3 for this result: 0 all within bounds, 1 a bound
   /// exceeded, 3 surrogate and Monte Carlo disagree (takes precedence over 1? no:

@@ -44,13 +44,18 @@ std::string read_file_bytes(const std::string& path, const std::string& option) 
   return bytes.str();
 }
 
+// The whole block, text then NUL padding: the only form verify() accepts.
+std::string checksum_block(const std::string& sha, unsigned long long length) {
+  std::string block = std::string(kChecksumMagic) + "sha256 " + sha + "\nbytes " + std::to_string(length) + "\n";
+  block.resize(kChecksumBlockBytes, '\0');
+  return block;
+}
+
 void seal(const std::string& path) {
   std::string bytes = read_file_bytes(path, "-o");
   if (bytes.size() < kChecksumBlockBytes) throw std::logic_error("seal: result file shorter than its checksum block");
   const std::string body = bytes.substr(kChecksumBlockBytes);
-  std::string block = std::string(kChecksumMagic) + "sha256 " + sha256_hex(body) + "\nbytes " +
-                      std::to_string(body.size()) + "\n";
-  block.resize(kChecksumBlockBytes, '\0');
+  const std::string block = checksum_block(sha256_hex(body), body.size());
   std::fstream out(path, std::ios::binary | std::ios::in | std::ios::out);
   out.seekp(0);
   out.write(block.data(), static_cast<std::streamsize>(block.size()));
@@ -73,7 +78,8 @@ void verify(const std::string& path) {
   std::string sha_word, sha, bytes_word;
   unsigned long long length = 0;
   fields >> sha_word >> sha >> bytes_word >> length;
-  if (!fields || sha_word != "sha256" || bytes_word != "bytes" || sha.size() != 64)
+  if (!fields || sha_word != "sha256" || bytes_word != "bytes" || sha.size() != 64 ||
+      bytes.compare(0, kChecksumBlockBytes, checksum_block(sha, length)) != 0)
     fail("corrupted result file: its checksum block is damaged");
   const std::size_t body = bytes.size() - kChecksumBlockBytes;
   if (length != body)

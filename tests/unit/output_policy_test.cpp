@@ -207,7 +207,7 @@ TEST(OutputPolicy, CommandLineNeverWritesOverItsInputs) {
       "compare " + q + result + q + " " + q + result + q + " --json " + q + result + q + " --force",
       "run " + q + case_copy + q + " -o " + q + (f / "same.h5") + q + " --json " + q + (f / "same.h5") + q +
           " --mc-runs 0",
-      "run " + q + case_copy + q + " -o " + q + (f / "p.h5") + q + " --json " + q + (f / "no-folder" / "s.json") + q +
+      "run " + q + case_copy + q + " -o " + q + (f / "p.h5") + q + " --json " + q + (f / "no-folder/s.json") + q +
           " --mc-runs 0",
   };
   for (const auto& command : commands) {

@@ -10,6 +10,7 @@
 #include <Eigen/Dense>
 
 #include "sigmatube/casefile/nearest_name.h"
+#include "sigmatube/core/output_policy.h"
 #include "toml_table.h"
 
 namespace sigmatube::casefile {
@@ -90,13 +91,31 @@ std::vector<NamedValue> read_named_values(const TomlTable& table, const std::str
   return out;
 }
 
+// An expression within kMaxExpressionLength characters and kMaxExpressionDepth
+// nested parentheses, checked before it reaches the compiler.
+void require_expression_size(const TomlTable& t, const std::string& key, const std::string& text) {
+  if (text.size() > kMaxExpressionLength)
+    t.fail(key, "expression of " + std::to_string(text.size()) + " characters exceeds the limit of " +
+                    std::to_string(kMaxExpressionLength));
+  int depth = 0, deepest = 0;
+  for (char c : text) {
+    if (c == '(') deepest = std::max(deepest, ++depth);
+    else if (c == ')') --depth;
+  }
+  if (deepest > kMaxExpressionDepth)
+    t.fail(key, "expression nests " + std::to_string(deepest) + " parentheses deep, the limit is " +
+                    std::to_string(kMaxExpressionDepth));
+}
+
 std::vector<NamedExpression> read_named_expressions(const TomlTable& table, const std::string& key) {
   std::vector<NamedExpression> out;
   auto sub = table.table(key);
   if (!sub) return out;
   for (const auto& [name, node] : sub->entries_in_file_order()) {
     if (!is_identifier(name)) sub->fail(name, "'" + name + "' is not a valid name (letters, digits and _, not starting with a digit)");
-    out.push_back({name, sub->string(name), sub->where(name)});
+    const std::string text = sub->string(name);
+    require_expression_size(*sub, name, text);
+    out.push_back({name, text, sub->where(name)});
   }
   return out;
 }
@@ -192,7 +211,14 @@ PlanOptions read_plan(const TomlTable& t, const std::string& case_path) {
   plan.interpolation = t.choice<Interpolation>(
       "interpolation", {{"linear", Interpolation::linear}, {"cubic", Interpolation::cubic}}, Interpolation::linear,
       "interpolation");
-  plan.path = existing_file_beside_case(t, "file", plan.file, case_path, "plan file");
+  namespace fs = std::filesystem;
+  fs::path file(plan.file);
+  if (file.is_relative()) file = fs::path(case_path).parent_path() / file;
+  plan.path = file.lexically_normal().string();
+  const std::string problem = input_file_problem(file.string());
+  if (problem == "no such file")
+    t.fail("file", "plan file '" + plan.file + "' not found (looked for '" + plan.path + "')");
+  if (!problem.empty()) t.fail("file", "plan file '" + plan.file + "' (" + plan.path + ") " + problem);
   return plan;
 }
 
@@ -568,6 +594,7 @@ ConstraintOptions read_constraint(const TomlTable& t) {
       break;
     case ConstraintKind::expression:
       c.clearance = t.string("clearance");
+      require_expression_size(t, "clearance", c.clearance);
       break;
   }
   return c;
@@ -653,6 +680,27 @@ TubeOptions read_tube(const TomlTable& t) {
   o.sigma = t.number_or("sigma", o.sigma);
   require_positive(t, "sigma", o.sigma);
   return o;
+LimitOptions read_limits(const TomlTable& t) {
+  LimitOptions l;
+  l.where = t.where();
+  l.key_where = t.key_locations();
+  t.check_keys({"max_samples", "max_sample_values", "max_runs", "max_report_times", "max_steps", "max_memory_gib"},
+               "key");
+  const auto positive_integer = [&](const std::string& key, long long& value) {
+    value = t.integer_or(key, value);
+    if (value < 1) t.fail(key, "must be ≥ 1 (got " + std::to_string(value) + ")");
+  };
+  const auto positive_number = [&](const std::string& key, double& value) {
+    value = t.number_or(key, value);
+    require_positive(t, key, value);
+  };
+  positive_integer("max_samples", l.max_samples);
+  positive_number("max_sample_values", l.max_sample_values);
+  positive_integer("max_runs", l.max_runs);
+  positive_integer("max_report_times", l.max_report_times);
+  positive_number("max_steps", l.max_steps);
+  positive_number("max_memory_gib", l.max_memory_gib);
+  return l;
 }
 
 template <class Entry>
@@ -671,7 +719,7 @@ CaseOptions read_case(const std::string& path) {
   const toml::table root_table = detail::parse_toml_file(path, "case file");
   const TomlTable root(path, root_table, "", 0);
   root.check_keys({"title", "model", "plan", "control", "simulation", "uncertain", "constraint", "surrogate",
-                   "montecarlo", "tube"},
+                   "montecarlo", "tube", "limits"},
                   "top-level key or table");
   CaseOptions options;
   options.path = path;
@@ -716,6 +764,8 @@ CaseOptions read_case(const std::string& path) {
   if (auto montecarlo = root.table("montecarlo")) options.montecarlo = read_montecarlo(*montecarlo);
   else options.montecarlo.where = {path, 0, "montecarlo"};
   if (auto tube = root.table("tube")) options.tube = read_tube(*tube);
+  if (auto limits = root.table("limits")) options.limits = read_limits(*limits);
+  else options.limits.where = {path, 0, "limits"};
   return options;
 }
 

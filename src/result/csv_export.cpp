@@ -6,6 +6,7 @@
 #include <sstream>
 
 #include "sigmatube/core/error.h"
+#include "sigmatube/core/output_policy.h"
 #include "sigmatube/result/result_file.h"
 
 namespace sigmatube::result {
@@ -117,19 +118,21 @@ std::vector<std::string> write_csv_export(const AnalysisResult& result, const st
   std::error_code ec;
   if (fs::exists(directory, ec) && !fs::is_directory(directory, ec))
     throw InputError(SourceLocation{directory, 0, "-d"}, "is not a folder");
-  std::vector<std::string> paths;
-  for (const auto& [name, text] : files) {
-    const std::string path = (fs::path(directory) / name).string();
-    if (fs::exists(path, ec) && fs::exists(input_path, ec) && fs::equivalent(path, input_path, ec))
-      throw InputError(SourceLocation{path, 0, "-d"}, "would replace the input file " + input_path);
-    if (fs::exists(path, ec) && !force)
-      throw InputError(SourceLocation{path, 0, "-d"}, "file exists (use --force to overwrite)");
-    paths.push_back(path);
-  }
+  // One output policy (core/output_policy.h): no CSV may be the result read,
+  // an existing file only with --force, all files complete or none.
   fs::create_directories(directory, ec);
   if (ec || !fs::is_directory(directory))
     throw InputError(SourceLocation{directory, 0, "-d"}, "cannot create the folder");
-  for (std::size_t i = 0; i < files.size(); ++i) write_text_file(files[i].second, paths[i], force);
+  OutputSet outputs(force);
+  outputs.input(input_path, "RESULT");
+  std::vector<std::string> paths;
+  for (const auto& entry : files) {
+    paths.push_back((fs::path(directory) / entry.first).string());
+    outputs.output(paths.back(), "-d");
+  }
+  outputs.check();
+  for (std::size_t i = 0; i < files.size(); ++i) outputs.stage_text(paths[i], files[i].second);
+  outputs.commit();
   return paths;
 }
 

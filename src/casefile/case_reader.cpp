@@ -680,6 +680,8 @@ TubeOptions read_tube(const TomlTable& t) {
   o.sigma = t.number_or("sigma", o.sigma);
   require_positive(t, "sigma", o.sigma);
   return o;
+}
+
 LimitOptions read_limits(const TomlTable& t) {
   LimitOptions l;
   l.where = t.where();

@@ -1,11 +1,15 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/app/case_loader.h"
 
+#include <algorithm>
+#include <cmath>
+
 #include <fstream>
 #include <iomanip>
 #include <sstream>
 #include <utility>
 
+#include "sigmatube/app/work_estimate.h"
 #include "sigmatube/casefile/case_reader.h"
 #include "sigmatube/casefile/case_validation.h"
 #include "sigmatube/core/sha256.h"
@@ -64,6 +68,24 @@ std::string join(const std::vector<std::string>& names) {
   return out;
 }
 
+// A constraint window must lie within the plan (a small relative slack for
+// rounding), or `run` would find no report time in it.
+void check_windows(const LoadedCase& loaded) {
+  const double t0 = loaded.closed_loop->plan().start_time(), tf = loaded.closed_loop->plan().end_time();
+  const double slack = 1e-9 * std::max(1.0, std::abs(tf - t0));
+  for (const auto& c : loaded.options.constraints) {
+    if (!c.window_in_seconds) continue;
+    const auto [start, end] = *c.window_in_seconds;
+    if (start < t0 - slack || end > tf + slack) {
+      std::ostringstream message;
+      message.precision(6);
+      message << "window [" << start << ", " << end << "] s lies outside the plan, which runs from " << t0 << " to "
+              << tf << " s";
+      throw InputError(c.key_where.of("window", c.where), message.str());
+    }
+  }
+}
+
 }  // namespace
 
 LoadedCase load_case(const std::string& path) { return load_case(casefile::read_case(path)); }
@@ -88,6 +110,8 @@ LoadedCase load_case(casefile::CaseOptions options) {
     loaded.constraints.emplace_back(options, loaded.closed_loop->output_names());
   // A design the options cannot support is a user error too: find out now.
   if (loaded.germ->dimension() > 0) (void)expansion::planned_model_runs(loaded.germ->specs(), loaded.options.surrogate);
+  check_windows(loaded);
+  enforce_limits(loaded, estimate_work(loaded));
   return loaded;
 }
 
@@ -151,6 +175,7 @@ std::string describe_case(const LoadedCase& loaded) {
   out << "model runs  " << runs << " for the surrogate design"
       << (o.surrogate.adaptive ? " (first step; adaptive refinement may add more)" : "") << ", "
       << o.montecarlo.runs << " for the Monte Carlo cross-check\n";
+  out << describe_work(estimate_work(loaded));
   return out.str();
 }
 

@@ -10,6 +10,7 @@
 #include <Eigen/Dense>
 
 #include "sigmatube/casefile/nearest_name.h"
+#include "sigmatube/core/output_policy.h"
 #include "toml_table.h"
 
 namespace sigmatube::casefile {
@@ -63,15 +64,17 @@ void require_unique(const TomlTable& t, const std::string& key, const std::vecto
 }
 
 // `written` (the value of `key`) resolved against the case file's folder unless
-// absolute; an error at `key` when no such file exists.
+// absolute; an error at `key` when it does not exist or cannot be read
+// (core/output_policy.h: input_file_problem).
 std::string existing_file_beside_case(const TomlTable& t, const std::string& key, const std::string& written,
                                       const std::string& case_path, const std::string& what) {
   namespace fs = std::filesystem;
   fs::path file(written);
   if (file.is_relative()) file = fs::path(case_path).parent_path() / file;
   const std::string resolved = file.lexically_normal().string();
-  std::error_code ec;
-  if (!fs::is_regular_file(file, ec)) t.fail(key, what + " '" + written + "' not found (looked for '" + resolved + "')");
+  const std::string problem = input_file_problem(file.string());
+  if (problem == "no such file") t.fail(key, what + " '" + written + "' not found (looked for '" + resolved + "')");
+  if (!problem.empty()) t.fail(key, what + " '" + written + "' (" + resolved + ") " + problem);
   return resolved;
 }
 
@@ -90,13 +93,31 @@ std::vector<NamedValue> read_named_values(const TomlTable& table, const std::str
   return out;
 }
 
+// An expression within kMaxExpressionLength characters and kMaxExpressionDepth
+// nested parentheses, checked before it reaches the compiler.
+void require_expression_size(const TomlTable& t, const std::string& key, const std::string& text) {
+  if (text.size() > kMaxExpressionLength)
+    t.fail(key, "expression of " + std::to_string(text.size()) + " characters exceeds the limit of " +
+                    std::to_string(kMaxExpressionLength));
+  int depth = 0, deepest = 0;
+  for (char c : text) {
+    if (c == '(') deepest = std::max(deepest, ++depth);
+    else if (c == ')') --depth;
+  }
+  if (deepest > kMaxExpressionDepth)
+    t.fail(key, "expression nests " + std::to_string(deepest) + " parentheses deep, the limit is " +
+                    std::to_string(kMaxExpressionDepth));
+}
+
 std::vector<NamedExpression> read_named_expressions(const TomlTable& table, const std::string& key) {
   std::vector<NamedExpression> out;
   auto sub = table.table(key);
   if (!sub) return out;
   for (const auto& [name, node] : sub->entries_in_file_order()) {
     if (!is_identifier(name)) sub->fail(name, "'" + name + "' is not a valid name (letters, digits and _, not starting with a digit)");
-    out.push_back({name, sub->string(name), sub->where(name)});
+    const std::string text = sub->string(name);
+    require_expression_size(*sub, name, text);
+    out.push_back({name, text, sub->where(name)});
   }
   return out;
 }
@@ -566,6 +587,7 @@ ConstraintOptions read_constraint(const TomlTable& t) {
       break;
     case ConstraintKind::expression:
       c.clearance = t.string("clearance");
+      require_expression_size(t, "clearance", c.clearance);
       break;
   }
   return c;
@@ -628,6 +650,29 @@ MonteCarloOptions read_montecarlo(const TomlTable& t) {
   return m;
 }
 
+LimitOptions read_limits(const TomlTable& t) {
+  LimitOptions l;
+  l.where = t.where();
+  l.key_where = t.key_locations();
+  t.check_keys({"max_samples", "max_sample_values", "max_runs", "max_report_times", "max_steps", "max_memory_gib"},
+               "key");
+  const auto positive_integer = [&](const std::string& key, long long& value) {
+    value = t.integer_or(key, value);
+    if (value < 1) t.fail(key, "must be ≥ 1 (got " + std::to_string(value) + ")");
+  };
+  const auto positive_number = [&](const std::string& key, double& value) {
+    value = t.number_or(key, value);
+    require_positive(t, key, value);
+  };
+  positive_integer("max_samples", l.max_samples);
+  positive_number("max_sample_values", l.max_sample_values);
+  positive_integer("max_runs", l.max_runs);
+  positive_integer("max_report_times", l.max_report_times);
+  positive_number("max_steps", l.max_steps);
+  positive_number("max_memory_gib", l.max_memory_gib);
+  return l;
+}
+
 template <class Entry>
 void require_unique_names(const std::vector<Entry>& entries, const std::string& what) {
   for (std::size_t i = 0; i < entries.size(); ++i)
@@ -644,7 +689,7 @@ CaseOptions read_case(const std::string& path) {
   const toml::table root_table = detail::parse_toml_file(path, "case file");
   const TomlTable root(path, root_table, "", 0);
   root.check_keys({"title", "model", "plan", "control", "simulation", "uncertain", "constraint", "surrogate",
-                   "montecarlo"},
+                   "montecarlo", "limits"},
                   "top-level key or table");
   CaseOptions options;
   options.path = path;
@@ -688,6 +733,8 @@ CaseOptions read_case(const std::string& path) {
   else options.surrogate.where = {path, 0, "surrogate"};
   if (auto montecarlo = root.table("montecarlo")) options.montecarlo = read_montecarlo(*montecarlo);
   else options.montecarlo.where = {path, 0, "montecarlo"};
+  if (auto limits = root.table("limits")) options.limits = read_limits(*limits);
+  else options.limits.where = {path, 0, "limits"};
   return options;
 }
 

@@ -2,6 +2,7 @@
 #include "sigmatube/germ/germ.h"
 
 #include <algorithm>
+#include <charconv>
 #include <boost/math/distributions/normal.hpp>
 #include <boost/math/distributions/triangular.hpp>
 #include <cmath>
@@ -60,11 +61,11 @@ void require(bool condition, const UncertainOptions& entry, const std::string& k
   if (!condition) fail(entry, key, message);
 }
 
+// Shortest digits that read back to the same double: 0.1, not 0.10000000000000001.
 std::string number(double value) {
-  std::ostringstream out;
-  out.precision(17);
-  out << value;
-  return out.str();
+  char buffer[64];
+  const auto end = std::to_chars(buffer, buffer + sizeof buffer, value).ptr;
+  return std::string(buffer, end);
 }
 
 const char* distribution_name(DistributionKind kind) {

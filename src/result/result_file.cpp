@@ -13,6 +13,8 @@
 #include <sstream>
 
 #include "sigmatube/core/error.h"
+#include "sigmatube/core/output_policy.h"
+#include "sigmatube/core/sha256.h"
 
 namespace sigmatube::result {
 namespace {
@@ -20,6 +22,72 @@ namespace {
 namespace fs = std::filesystem;
 using RowMajorMatrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
 using IndexMatrix = Eigen::Matrix<int, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
+
+// ---------------------------------------------------------------- checksum
+//
+// The first kChecksumBlockBytes of a result file are an HDF5 user block (HDF5
+// itself never reads it). Once the HDF5 file is closed, seal() writes into it
+// the SHA-256 and length of every byte after it: all datasets, attributes and
+// HDF5 metadata, whatever groups other code adds. verify() checks both before
+// the HDF5 library parses anything, so a corrupted file never reaches it.
+
+constexpr hsize_t kChecksumBlockBytes = 512;
+constexpr const char* kChecksumMagic = "sigmatube result checksum v1\n";
+constexpr const char kHdf5Signature[8] = {'\x89', 'H', 'D', 'F', '\r', '\n', '\x1a', '\n'};
+
+std::string read_file_bytes(const std::string& path, const std::string& option) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) throw InputError(SourceLocation{path, 0, option}, std::string("cannot open: ") + std::strerror(errno));
+  std::ostringstream bytes;
+  bytes << in.rdbuf();
+  if (in.bad()) throw InputError(SourceLocation{path, 0, option}, "cannot read the file");
+  return bytes.str();
+}
+
+// The whole block, text then NUL padding: the only form verify() accepts.
+std::string checksum_block(const std::string& sha, unsigned long long length) {
+  std::string block = std::string(kChecksumMagic) + "sha256 " + sha + "\nbytes " + std::to_string(length) + "\n";
+  block.resize(kChecksumBlockBytes, '\0');
+  return block;
+}
+
+void seal(const std::string& path) {
+  std::string bytes = read_file_bytes(path, "-o");
+  if (bytes.size() < kChecksumBlockBytes) throw std::logic_error("seal: result file shorter than its checksum block");
+  const std::string body = bytes.substr(kChecksumBlockBytes);
+  const std::string block = checksum_block(sha256_hex(body), body.size());
+  std::fstream out(path, std::ios::binary | std::ios::in | std::ios::out);
+  out.seekp(0);
+  out.write(block.data(), static_cast<std::streamsize>(block.size()));
+  out.close();
+  if (!out) throw InputError(SourceLocation{path, 0, "-o"}, "cannot write the result file's checksum");
+}
+
+void verify(const std::string& path) {
+  const auto fail = [&](const std::string& what) { throw InputError(SourceLocation{path, 0, ""}, what); };
+  const std::string bytes = read_file_bytes(path, "");
+  const std::string magic(kChecksumMagic);
+  if (bytes.compare(0, magic.size(), magic) != 0) {
+    if (bytes.size() >= 8 && bytes.compare(0, 8, std::string(kHdf5Signature, 8)) == 0)
+      fail("an HDF5 file without a sigmatube checksum (not written by this version of sigmatube); not read");
+    fail("not a sigmatube result file (no sigmatube checksum block; not an HDF5 file written by sigmatube)");
+  }
+  if (bytes.size() < kChecksumBlockBytes) fail("corrupted result file: truncated inside its checksum block");
+  const std::string block = bytes.substr(magic.size(), kChecksumBlockBytes - magic.size());
+  std::istringstream fields(block.substr(0, block.find('\0')));
+  std::string sha_word, sha, bytes_word;
+  unsigned long long length = 0;
+  fields >> sha_word >> sha >> bytes_word >> length;
+  if (!fields || sha_word != "sha256" || bytes_word != "bytes" || sha.size() != 64 ||
+      bytes.compare(0, kChecksumBlockBytes, checksum_block(sha, length)) != 0)
+    fail("corrupted result file: its checksum block is damaged");
+  const std::size_t body = bytes.size() - kChecksumBlockBytes;
+  if (length != body)
+    fail("corrupted result file: " + std::to_string(body) + " bytes after the checksum block, the checksum covers " +
+         std::to_string(length) + (body < length ? " (truncated)" : ""));
+  if (sha256_hex(bytes.substr(kChecksumBlockBytes)) != sha)
+    fail("corrupted result file: the SHA-256 checksum does not match its contents (changed since it was written)");
+}
 
 // ---------------------------------------------------------------- writing
 
@@ -221,7 +289,9 @@ void write_montecarlo(H5::H5File& file, const AnalysisResult& r) {
 
 void write_all(const AnalysisResult& r, const std::string& path) {
   H5::Exception::dontPrint();
-  H5::H5File file(path, H5F_ACC_TRUNC);
+  H5::FileCreatPropList creation;
+  creation.setUserblock(kChecksumBlockBytes);  // the checksum block, filled by seal() once the file is closed
+  H5::H5File file(path, H5F_ACC_TRUNC, creation);
   write_attribute(file, "tool_version", r.tool_version);
   write_attribute(file, "case_sha256", r.case_sha256);
   write_attribute(file, "created_utc", r.created_utc);
@@ -250,6 +320,11 @@ void write_all(const AnalysisResult& r, const std::string& path) {
 
 // ---------------------------------------------------------------- reading
 
+// Sizes no sigmatube result reaches; larger ones mean a damaged file.
+constexpr hsize_t kMaxElements = hsize_t{1} << 31;
+constexpr hsize_t kMaxStrings = hsize_t{1} << 20;
+constexpr std::size_t kMaxStringBytes = std::size_t{1} << 24;
+
 struct Reader {
   std::string path;
 
@@ -274,11 +349,29 @@ struct Reader {
     return d;
   }
 
+  // Element count of a dataset, refusing sizes no result file can have (the
+  // checksum makes this unreachable for files written by sigmatube).
+  hsize_t elements(const std::vector<hsize_t>& d, const std::string& name) const {
+    hsize_t n = 1;
+    for (hsize_t x : d) {
+      if (x != 0 && n > kMaxElements / x) fail("dataset '" + name + "' has an impossible size");
+      n *= x;
+    }
+    return n;
+  }
+
+  void require_class(const H5::DataSet& ds, H5T_class_t wanted, const std::string& name) const {
+    const H5T_class_t found = ds.getTypeClass();
+    const bool numeric = wanted == H5T_FLOAT || wanted == H5T_INTEGER;
+    if (found == wanted || (numeric && (found == H5T_FLOAT || found == H5T_INTEGER))) return;
+    fail("dataset '" + name + "' has the wrong type");
+  }
+
   std::vector<double> doubles(const H5::Group& g, const std::string& name, std::vector<hsize_t>* shape = nullptr) const {
     H5::DataSet ds = open(g, name);
+    require_class(ds, H5T_FLOAT, name);
     const auto d = dims(ds);
-    hsize_t n = 1;
-    for (hsize_t x : d) n *= x;
+    const hsize_t n = elements(d, name);
     std::vector<double> v(n);
     if (n > 0) ds.read(v.data(), H5::PredType::NATIVE_DOUBLE);
     if (shape) *shape = d;
@@ -293,6 +386,8 @@ struct Reader {
 
   long long scalar_int(const H5::Group& g, const std::string& name) const {
     H5::DataSet ds = open(g, name);
+    require_class(ds, H5T_INTEGER, name);
+    if (elements(dims(ds), name) != 1) fail("dataset '" + name + "' is not a scalar");
     long long value = 0;
     ds.read(&value, H5::PredType::NATIVE_LLONG);
     return value;
@@ -325,23 +420,32 @@ struct Reader {
 
   std::vector<std::uint8_t> flags(const H5::Group& g, const std::string& name) const {
     H5::DataSet ds = open(g, name);
+    require_class(ds, H5T_INTEGER, name);
     const auto d = dims(ds);
-    std::vector<std::uint8_t> v(d.empty() ? 1 : d[0]);
+    std::vector<std::uint8_t> v(d.empty() ? 1 : elements(d, name));
     if (!v.empty()) ds.read(v.data(), H5::PredType::NATIVE_UINT8);
     return v;
   }
 
+  // Variable-length strings: the memory type takes its character set from the
+  // file's; the type must be a variable-length string (a fixed-length or other
+  // type is refused instead of trusting a length from the file), and each
+  // string is copied up to kMaxStringBytes.
   std::vector<std::string> strings(const H5::Group& g, const std::string& name) const {
     H5::DataSet ds = open(g, name);
+    require_class(ds, H5T_STRING, name);
     const auto d = dims(ds);
     std::vector<std::string> out;
-    if (d.empty() || d[0] == 0) return out;
+    if (d.size() != 1) fail("dataset '" + name + "' is not a list of strings");
+    if (d[0] == 0) return out;
+    if (d[0] > kMaxStrings) fail("dataset '" + name + "' has an impossible size");
     H5::StrType file_type = ds.getStrType();
+    if (!file_type.isVariableStr()) fail("dataset '" + name + "' is not a variable-length string");
     H5::StrType memory_type(H5::PredType::C_S1, H5T_VARIABLE);
     memory_type.setCset(file_type.getCset());
     std::vector<char*> pointers(d[0], nullptr);
     ds.read(pointers.data(), memory_type);
-    for (char* p : pointers) out.emplace_back(p ? p : "");
+    for (char* p : pointers) out.emplace_back(p ? std::string(p, ::strnlen(p, kMaxStringBytes)) : std::string());
     H5::DataSpace space = ds.getSpace();
     H5Dvlen_reclaim(memory_type.getId(), space.getId(), H5P_DEFAULT, pointers.data());
     return out;
@@ -352,34 +456,45 @@ struct Reader {
   std::string attribute_string(const H5::H5Object& o, const std::string& name) const {
     if (!has_attribute(o, name)) return {};
     H5::Attribute a = o.openAttribute(name);
+    if (a.getTypeClass() != H5T_STRING) fail("attribute '" + name + "' is not a string");
+    if (a.getSpace().getSimpleExtentNpoints() != 1) fail("attribute '" + name + "' is not a single string");
     H5::StrType file_type = a.getStrType();
+    if (!file_type.isVariableStr()) fail("attribute '" + name + "' is not a variable-length string");
     H5::StrType memory_type(H5::PredType::C_S1, H5T_VARIABLE);
     memory_type.setCset(file_type.getCset());
     char* p = nullptr;
     a.read(memory_type, &p);
-    std::string value = p ? p : "";
+    std::string value = p ? std::string(p, ::strnlen(p, kMaxStringBytes)) : std::string();
     H5free_memory(p);
     return value;
+  }
+
+  H5::Attribute numeric_attribute(const H5::H5Object& o, const std::string& name) const {
+    H5::Attribute a = o.openAttribute(name);
+    const H5T_class_t c = a.getTypeClass();
+    if (c != H5T_FLOAT && c != H5T_INTEGER) fail("attribute '" + name + "' is not a number");
+    if (a.getSpace().getSimpleExtentNpoints() != 1) fail("attribute '" + name + "' is not a single number");
+    return a;
   }
 
   double attribute_double(const H5::H5Object& o, const std::string& name, double fallback) const {
     if (!has_attribute(o, name)) return fallback;
     double v = fallback;
-    o.openAttribute(name).read(H5::PredType::NATIVE_DOUBLE, &v);
+    numeric_attribute(o, name).read(H5::PredType::NATIVE_DOUBLE, &v);
     return v;
   }
 
   long long attribute_int(const H5::H5Object& o, const std::string& name, long long fallback) const {
     if (!has_attribute(o, name)) return fallback;
     long long v = fallback;
-    o.openAttribute(name).read(H5::PredType::NATIVE_LLONG, &v);
+    numeric_attribute(o, name).read(H5::PredType::NATIVE_LLONG, &v);
     return v;
   }
 
   unsigned long long attribute_u64(const H5::H5Object& o, const std::string& name) const {
     if (!has_attribute(o, name)) return 0;
     unsigned long long v = 0;
-    o.openAttribute(name).read(H5::PredType::NATIVE_ULLONG, &v);
+    numeric_attribute(o, name).read(H5::PredType::NATIVE_ULLONG, &v);
     return v;
   }
 
@@ -433,6 +548,8 @@ AnalysisResult read_all(const std::string& path) {
       H5::DataSet ds = reader.open(g, "multi_indices");
       const auto d = reader.dims(ds);
       if (d.size() != 2) reader.fail("dataset 'multi_indices' is not two-dimensional");
+      reader.require_class(ds, H5T_INTEGER, "multi_indices");
+      (void)reader.elements(d, "multi_indices");
       s.multi_indices.resize(static_cast<Eigen::Index>(d[0]), static_cast<Eigen::Index>(d[1]));
       if (s.multi_indices.size() > 0) ds.read(s.multi_indices.data(), H5::PredType::NATIVE_INT);
     }
@@ -538,33 +655,6 @@ AnalysisResult read_all(const std::string& path) {
   return r;
 }
 
-std::string temporary_name(const std::string& path) {
-  std::ostringstream name;
-  name << path << ".tmp." << ::getpid();
-  return name.str();
-}
-
-// Moves a finished temporary file to its final name.
-void publish(const std::string& temporary, const std::string& path, bool force) {
-  if (force) {
-    if (std::rename(temporary.c_str(), path.c_str()) != 0) {
-      const int e = errno;
-      std::remove(temporary.c_str());
-      throw InputError(SourceLocation{path, 0, "-o"}, std::string("cannot write: ") + std::strerror(e));
-    }
-    return;
-  }
-  // link() fails with EEXIST if the name was taken: never replaces a file.
-  if (::link(temporary.c_str(), path.c_str()) != 0) {
-    const int e = errno;
-    std::remove(temporary.c_str());
-    if (e == EEXIST)
-      throw InputError(SourceLocation{path, 0, "-o"}, "file exists (use --force to overwrite)");
-    throw InputError(SourceLocation{path, 0, "-o"}, std::string("cannot write: ") + std::strerror(e));
-  }
-  std::remove(temporary.c_str());
-}
-
 }  // namespace
 
 int AnalysisResult::verdict_exit_code() const {
@@ -574,54 +664,51 @@ int AnalysisResult::verdict_exit_code() const {
   return exceeded ? 1 : 0;
 }
 
-void check_output_path(const std::string& path, bool force) {
-  if (path.empty()) throw InputError(SourceLocation{"", 0, "-o"}, "an output file name is required");
-  const fs::path p(path);
-  const fs::path folder = p.has_parent_path() ? p.parent_path() : fs::path(".");
-  if (!fs::is_directory(folder))
-    throw InputError(SourceLocation{path, 0, "-o"}, "folder '" + folder.string() + "' does not exist");
-  if (fs::exists(p) && !force)
-    throw InputError(SourceLocation{path, 0, "-o"}, "file exists (use --force to overwrite)");
-  if (fs::is_directory(p)) throw InputError(SourceLocation{path, 0, "-o"}, "is a folder");
+void check_output_path(const std::string& path, bool force, const std::string& option) {
+  OutputSet outputs(force);
+  outputs.output(path, option);
+  outputs.check();
+}
+
+void write_result_to(const AnalysisResult& result, const std::string& file) {
+  try {
+    write_all(result, file);
+    seal(file);
+  } catch (const H5::Exception& e) {
+    throw InputError(SourceLocation{file, 0, "-o"}, "cannot write result file: " + e.getDetailMsg());
+  }
 }
 
 void write_result_file(const AnalysisResult& result, const std::string& path, bool force) {
-  check_output_path(path, force);
-  const std::string temporary = temporary_name(path);
-  try {
-    write_all(result, temporary);
-  } catch (const H5::Exception& e) {
-    std::remove(temporary.c_str());
-    throw InputError(SourceLocation{path, 0, "-o"}, "cannot write result file: " + e.getDetailMsg());
-  } catch (...) {
-    std::remove(temporary.c_str());
-    throw;
-  }
-  publish(temporary, path, force);
+  OutputSet outputs(force);
+  outputs.output(path, "-o");
+  outputs.stage(path, [&](const std::string& temporary) { write_result_to(result, temporary); });
+  outputs.commit();
 }
 
 AnalysisResult read_result_file(const std::string& path) {
-  if (!fs::exists(path)) throw InputError(SourceLocation{path, 0, ""}, "no such file");
+  refuse_temporary_as_input(path, "");
+  const std::string problem = input_file_problem(path);
+  if (!problem.empty()) throw InputError(SourceLocation{path, 0, ""}, problem);
+  verify(path);
   try {
     return read_all(path);
   } catch (const H5::Exception& e) {
-    throw InputError(SourceLocation{path, 0, ""}, "cannot read result file: " + e.getDetailMsg());
+    std::string detail = e.getDetailMsg();
+    if (detail.size() > 200) detail = detail.substr(0, 200) + "...";
+    throw InputError(SourceLocation{path, 0, ""}, "cannot read result file: " + detail);
+  } catch (const std::bad_alloc&) {
+    throw InputError(SourceLocation{path, 0, ""}, "cannot read result file: a dataset is larger than memory allows");
+  } catch (const std::length_error&) {
+    throw InputError(SourceLocation{path, 0, ""}, "cannot read result file: a dataset has an impossible size");
   }
 }
 
 void write_text_file(const std::string& text, const std::string& path, bool force) {
-  check_output_path(path, force);
-  const std::string temporary = temporary_name(path);
-  {
-    std::ofstream out(temporary, std::ios::binary);
-    out << text;
-    out.close();
-    if (!out) {
-      std::remove(temporary.c_str());
-      throw InputError(SourceLocation{path, 0, ""}, "cannot write file");
-    }
-  }
-  publish(temporary, path, force);
+  OutputSet outputs(force);
+  outputs.output(path, "-o");
+  outputs.stage_text(path, text);
+  outputs.commit();
 }
 
 }  // namespace sigmatube::result

@@ -5,6 +5,8 @@
 #include <sstream>
 #include <string>
 
+#include "sigmatube/result/number_format.h"
+
 namespace sigmatube::result {
 namespace {
 
@@ -172,9 +174,10 @@ void add_rare_events(AnalysisResult& r, const std::vector<std::optional<montecar
     // The full-model estimate governs the verdict of a rare-event bound.
     c.within_bound = out.probability <= c.max_probability;
     std::ostringstream verdict;
-    verdict << (c.within_bound ? "meets " : "exceeds: ") << "importance sampling p = " << out.probability << " ["
-            << out.interval[0] << ", " << out.interval[1] << "] vs bound " << c.max_probability << " (" << out.runs
-            << " full-model runs, ESS " << static_cast<long long>(out.effective_sample_size)
+    verdict << (c.within_bound ? "meets " : "exceeds: ") << "importance sampling p = " << format_value(out.probability, 3)
+            << " [" << format_value(out.interval[0], 3) << ", " << format_value(out.interval[1], 3) << "] vs bound "
+            << format_value(c.max_probability, 3) << " (" << out.runs << " full-model runs, ESS "
+            << static_cast<long long>(out.effective_sample_size)
             << "); surrogate: " << c.verdict;
     c.verdict = verdict.str();
   }

@@ -212,6 +212,25 @@ struct MonteCarloOptions {
 };
 
 /// A whole case file.
+/// [limits]: sizes that `check` (and every command that reads the case)
+/// enforces before any work (docs/case-file.md, "Limits"). Each may be raised
+/// in the case file where a machine can afford it.
+struct LimitOptions {
+  long long max_samples = 1'000'000'000;    // [surrogate].samples (or --samples)
+  double max_sample_values = 1e12;          // samples × report times × outputs
+  long long max_runs = 10'000'000;          // model runs: surrogate design + Monte Carlo
+  long long max_report_times = 1'000'000;   // report times of one run
+  double max_steps = 1e8;                   // integration steps of one run: plan length / step
+  double max_memory_gib = 16.0;             // estimated peak memory of a run
+  SourceLocation where;
+  KeyLocations key_where;
+};
+
+/// Expressions (rhs, outputs, clearance): fixed limits, not overridable (they
+/// protect the expression compiler, whose recursion depth follows the nesting).
+constexpr std::size_t kMaxExpressionLength = 10'000;  // characters
+constexpr int kMaxExpressionDepth = 100;              // nested parentheses
+
 struct CaseOptions {
   std::string title;
   std::string path;  // the case file as given
@@ -223,6 +242,7 @@ struct CaseOptions {
   std::vector<ConstraintOptions> constraints;
   SurrogateOptions surrogate;
   MonteCarloOptions montecarlo;
+  LimitOptions limits;
 };
 
 }  // namespace sigmatube::casefile

@@ -32,6 +32,9 @@ struct CompareOptions {
   double min_margin = std::numeric_limits<double>::quiet_NaN();
   std::map<std::string, double> min_margin_override;
 
+  // The budget file these came from ("" = none): named in messages.
+  std::string source;
+
   /// Throws InputError naming the field for negative allowances or α ∉ (0, 1).
   void validate() const;
 };

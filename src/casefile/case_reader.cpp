@@ -64,15 +64,17 @@ void require_unique(const TomlTable& t, const std::string& key, const std::vecto
 }
 
 // `written` (the value of `key`) resolved against the case file's folder unless
-// absolute; an error at `key` when no such file exists.
+// absolute; an error at `key` when it does not exist or cannot be read
+// (core/output_policy.h: input_file_problem).
 std::string existing_file_beside_case(const TomlTable& t, const std::string& key, const std::string& written,
                                       const std::string& case_path, const std::string& what) {
   namespace fs = std::filesystem;
   fs::path file(written);
   if (file.is_relative()) file = fs::path(case_path).parent_path() / file;
   const std::string resolved = file.lexically_normal().string();
-  std::error_code ec;
-  if (!fs::is_regular_file(file, ec)) t.fail(key, what + " '" + written + "' not found (looked for '" + resolved + "')");
+  const std::string problem = input_file_problem(file.string());
+  if (problem == "no such file") t.fail(key, what + " '" + written + "' not found (looked for '" + resolved + "')");
+  if (!problem.empty()) t.fail(key, what + " '" + written + "' (" + resolved + ") " + problem);
   return resolved;
 }
 

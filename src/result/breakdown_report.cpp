@@ -26,7 +26,7 @@ std::string tube_section(const AnalysisResult& r) {
   std::string out = "<h2>Deterministic tube</h2>\n";
   const TubeResult& t = r.tube;
   const std::size_t T = r.time.size();
-  if (!t.done) return out + p("No [tube] table in the case: no deterministic bound.", "missing");
+  if (!t.done) return out + p("No [tube] table in the case: no deterministic bound.");
   std::ostringstream text;
   text << "Worst-case bound r(t) on ‖p − p_nominal‖ for p = (";
   for (std::size_t k = 0; k < t.position.size(); ++k) text << (k ? ", " : "") << t.position[k];

@@ -138,7 +138,7 @@ QuadratureRule interpolatory_rule(const germ::FamilySpec& spec, const std::vecto
 
 int leja_level_points(int level) {
   if (level < 1) throw std::logic_error("leja_level_points: level must be at least 1");
-  return level == 1 ? 1 : 2 * level + 1;
+  return level == 1 ? 1 : 4 * level - 3;
 }
 
 int leja_level_degree(int level) { return (leja_level_points(level) - 1) / 2; }

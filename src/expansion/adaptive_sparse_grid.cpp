@@ -21,9 +21,19 @@
 // the relative size of the index's contribution to the worst output's whole time
 // history (s_c² the current variance of column c), divided by the index's new
 // model runs.
+// Blind indicators: every rule is anchored at the centre, so an input whose
+// effect vanishes on the lines through it (x3⁴ sin x1 of the Ishigami function,
+// zero wherever x1 = 0) has zero surpluses and the greedy rule never refines
+// it. When an output's hold-out error exceeds kBlindRatio × the sum of its
+// indicators over the active margin, the next refinement explores instead (the
+// work-driven side of Gerstner & Griebel's weighted indicator): first an index
+// that blocks a large old surplus (unblock()), else the probe of an unrefined
+// input that the hold-out residual points to (probe()).
 // Stopping: the hold-out estimate (build_parts.h) of every output ≤ tolerance,
 // or no admissible index fits in max_model_runs.
 #include <algorithm>
+#include <cmath>
+#include <limits>
 #include <memory>
 #include <numeric>
 
@@ -35,11 +45,19 @@
 namespace sigmatube::expansion::detail {
 namespace {
 
-// Highest Leja level per dimension (2·30 + 1 = 61 points, degree 30): beyond it
+// Highest Leja level per dimension (4·15 − 3 = 57 points, degree 28): beyond it
 // the interpolatory weights of unbounded families lose accuracy.
-constexpr int kMaxLejaLevel = 30;
+constexpr int kMaxLejaLevel = 15;
 // Floor of the indicator denominators, as in pooled_relative_rmse.
 constexpr double kScaleFloorRelative = 1e-12;
+// Hold-out error over the active margin's indicator sum above which the
+// indicators count as blind (the margin's surpluses bound the error of the
+// surrogate on O ∪ A in Gerstner & Griebel's heuristic, so a larger error means
+// contributions the margin does not see).
+constexpr double kBlindRatio = 2.0;
+// A blocked surplus counts when it is at least this share of the worst hold-out
+// error (unblock()); smaller ones cannot explain the error.
+constexpr double kBlockedShare = 0.01;
 
 using Level = std::vector<int>;
 
@@ -94,6 +112,7 @@ class Builder {
     out.runs_per_refinement.push_back(cache_.size());
 
     int refinements = 0;
+    explorations_ = 0;
     while (true) {
       const Eigen::VectorXd estimate = current_estimate();
       const double worst = estimate.maxCoeff();
@@ -105,14 +124,25 @@ class Builder {
         out.stop_reason = m.str();
         break;
       }
-      // The active index with the largest indicator per cost.
+      // The active index with the largest indicator per cost, unless the
+      // indicators are blind (indicators_blind): then the index that blocks the
+      // largest surplus (unblock), else the probe of the unrefined input the
+      // hold-out residual points to (probe).
       const Eigen::VectorXd denominators = output_denominators();
       int best = -1;
-      double best_priority = -1.0;
-      for (std::size_t i = 0; i < nodes_.size(); ++i) {
-        if (nodes_[i].old) continue;
-        const double priority = indicator(nodes_[i], denominators) / nodes_[i].cost;
-        if (priority > best_priority) best_priority = priority, best = static_cast<int>(i);
+      if (indicators_blind(estimate, denominators)) {
+        best = unblock(denominators, worst);
+        if (best < 0) best = probe();
+      }
+      if (best >= 0) {
+        ++explorations_;
+      } else {
+        double best_priority = -1.0;
+        for (std::size_t i = 0; i < nodes_.size(); ++i) {
+          if (nodes_[i].old) continue;
+          const double priority = indicator(nodes_[i], denominators) / nodes_[i].cost;
+          if (priority > best_priority) best_priority = priority, best = static_cast<int>(i);
+        }
       }
       if (best < 0) {
         out.stop_reason = "every admissible index was refined or would exceed max_model_runs = " +
@@ -121,12 +151,7 @@ class Builder {
       }
       nodes_[static_cast<std::size_t>(best)].old = true;
       const Level chosen = nodes_[static_cast<std::size_t>(best)].level;
-      std::vector<Level> candidates;
-      for (int k = 0; k < d_; ++k) {
-        Level l = chosen;
-        if (++l[static_cast<std::size_t>(k)] > kMaxLejaLevel) continue;
-        if (admissible(l)) candidates.push_back(l);
-      }
+      const std::vector<Level> candidates = forward_neighbours(chosen);
       // Add the neighbours that fit in the budget (all of them in one call when they do).
       std::vector<Level> fitting;
       Eigen::MatrixXd pending(0, d_);
@@ -160,6 +185,105 @@ class Builder {
     std::ostringstream m;
     m << v;
     return m.str();
+  }
+
+  // The active probe e_k (level 2 in input k, 1 elsewhere: an input never
+  // refined) whose input the hold-out residual r = f − f̂ points to most. For
+  // each product φ = ψ_a(x_k) or ψ_a(x_k)ψ_b(x_j) (a, b ∈ {1, 2}, j ≠ k) and
+  // column c, mean_h(r_hc φ(x_h)) over the hold-out points h (random draws of
+  // the germ) is an unbiased Monte Carlo estimate of r's coefficient on φ
+  // (non-intrusive spectral projection by sampling: Le Maître & Knio, Spectral
+  // Methods for Uncertainty Quantification, Springer 2010); its z-score
+  // is the mean over its standard error. The probe with the largest |z| is
+  // taken (ties, e.g. no residual at all, to the lowest input); −1 when every
+  // input was refined.
+  int probe() const {
+    std::vector<int> probes(static_cast<std::size_t>(d_), -1);
+    for (std::size_t i = 0; i < nodes_.size(); ++i) {
+      if (nodes_[i].old) continue;
+      int dim = -1, raised = 0;
+      for (int k = 0; k < d_; ++k)
+        if (nodes_[i].level[static_cast<std::size_t>(k)] > 1) dim = k, ++raised;
+      if (raised == 1 && nodes_[i].level[static_cast<std::size_t>(dim)] == 2) probes[static_cast<std::size_t>(dim)] = static_cast<int>(i);
+    }
+    if (std::all_of(probes.begin(), probes.end(), [](int p) { return p < 0; })) return -1;
+    const Eigen::MatrixXd residual = hold_values_ - hold_fit_;  // [H, C]
+    const double h = static_cast<double>(residual.rows());
+    // ψ_a(x_k) for a = 1, 2 at the hold-out points.
+    std::vector<Eigen::MatrixXd> psi(static_cast<std::size_t>(d_));
+    MultiIndexSet one(2, d_);
+    for (int k = 0; k < d_; ++k) {
+      one.setZero();
+      one(0, k) = 1, one(1, k) = 2;
+      psi[static_cast<std::size_t>(k)] = basis_matrix(families_, one, hold_points_);  // [H, 2]
+    }
+    const auto z_score = [&](const Eigen::VectorXd& phi) {
+      const Eigen::MatrixXd terms = residual.array().colwise() * phi.array();  // [H, C]
+      const Eigen::RowVectorXd mean = terms.colwise().mean();
+      const Eigen::RowVectorXd var = (terms.rowwise() - mean).colwise().squaredNorm() / (h - 1.0);
+      double z = 0.0;
+      for (Eigen::Index c = 0; c < terms.cols(); ++c)
+        if (var[c] > 0.0) z = std::max(z, std::abs(mean[c]) / std::sqrt(var[c] / h));
+      return z;
+    };
+    int best = -1;
+    double best_z = -1.0;
+    for (int k = 0; k < d_; ++k) {
+      if (probes[static_cast<std::size_t>(k)] < 0) continue;
+      double z = 0.0;
+      for (int a = 0; a < 2; ++a) {
+        const Eigen::VectorXd pk = psi[static_cast<std::size_t>(k)].col(a);
+        z = std::max(z, z_score(pk));
+        for (int j = 0; j < d_; ++j)
+          if (j != k)
+            for (int b = 0; b < 2; ++b) z = std::max(z, z_score(pk.cwiseProduct(psi[static_cast<std::size_t>(j)].col(b))));
+      }
+      if (z > best_z) best_z = z, best = probes[static_cast<std::size_t>(k)];
+    }
+    return best;
+  }
+
+  // The active index that blocks the most: an index i with a small surplus of
+  // its own (x3 alone is zero on the anchor line of the Ishigami function) is
+  // never refined, so no index above it is ever admitted, however large the
+  // neighbours of that index are. Its blocked surplus is the largest η of an
+  // old index b = i + e_m − e_k (k with i_k > 1, m ≠ k), the other backward
+  // neighbour of the blocked index i + e_m; the active index with the largest
+  // blocked surplus per run is refined, when that surplus is at least
+  // kBlockedShare of the worst hold-out error (else nothing is blocked, −1).
+  int unblock(const Eigen::VectorXd& denominators, double worst_estimate) const {
+    int best = -1;
+    double best_priority = 0.0;
+    for (std::size_t i = 0; i < nodes_.size(); ++i) {
+      if (nodes_[i].old) continue;
+      double blocked = 0.0;
+      for (int k = 0; k < d_; ++k) {
+        if (nodes_[i].level[static_cast<std::size_t>(k)] <= 2) continue;  // b must still involve input k
+        for (int m = 0; m < d_; ++m) {
+          if (m == k) continue;
+          Level b = nodes_[i].level;
+          --b[static_cast<std::size_t>(k)];
+          ++b[static_cast<std::size_t>(m)];
+          const auto it = node_of_.find(b);
+          if (it != node_of_.end() && nodes_[static_cast<std::size_t>(it->second)].old)
+            blocked = std::max(blocked, indicator(nodes_[static_cast<std::size_t>(it->second)], denominators));
+        }
+      }
+      const double priority = blocked / nodes_[i].cost;
+      if (blocked >= kBlockedShare * worst_estimate && priority > best_priority) best_priority = priority, best = static_cast<int>(i);
+    }
+    return best;
+  }
+
+  // The admissible forward neighbours of an old index.
+  std::vector<Level> forward_neighbours(const Level& level) const {
+    std::vector<Level> result;
+    for (int k = 0; k < d_; ++k) {
+      Level l = level;
+      if (++l[static_cast<std::size_t>(k)] > kMaxLejaLevel) continue;
+      if (admissible(l)) result.push_back(l);
+    }
+    return result;
   }
 
   bool admissible(const Level& l) const {
@@ -319,14 +443,33 @@ class Builder {
     return result;
   }
 
+  // η of output o: √(Σ_t ‖Δ_i[:, c]‖² / Σ_t s_c²).
+  double output_indicator(const Node& node, int o, const Eigen::VectorXd& denominators) const {
+    double sum = 0.0;
+    for (int t = 0; t < n_times_; ++t) sum += node.delta_sq[static_cast<Eigen::Index>(t) * n_outputs_ + o];
+    return std::sqrt(sum / denominators[o]);
+  }
+
   double indicator(const Node& node, const Eigen::VectorXd& denominators) const {
     double worst = 0.0;
-    for (int o = 0; o < n_outputs_; ++o) {
-      double sum = 0.0;
-      for (int t = 0; t < n_times_; ++t) sum += node.delta_sq[static_cast<Eigen::Index>(t) * n_outputs_ + o];
-      worst = std::max(worst, std::sqrt(sum / denominators[o]));
-    }
+    for (int o = 0; o < n_outputs_; ++o) worst = std::max(worst, output_indicator(node, o, denominators));
     return worst;
+  }
+
+  // The indicators are blind when an output's hold-out error, still above
+  // tolerance, exceeds kBlindRatio × the sum of its indicators over the active
+  // margin: the margin cannot account for the error, so the anchored rules miss
+  // something (an input whose effect vanishes on the anchor lines, such as
+  // x3⁴ sin x1 of the Ishigami function, zero wherever x1 = 0).
+  bool indicators_blind(const Eigen::VectorXd& estimate, const Eigen::VectorXd& denominators) const {
+    for (int o = 0; o < n_outputs_; ++o) {
+      if (estimate[o] <= options_.tolerance) continue;
+      double margin = 0.0;
+      for (const Node& n : nodes_)
+        if (!n.old) margin += output_indicator(n, o, denominators);
+      if (estimate[o] > kBlindRatio * margin) return true;
+    }
+    return false;
   }
 
   Eigen::VectorXd current_estimate() const {
@@ -357,7 +500,8 @@ class Builder {
       highest = std::max(highest, *std::max_element(n.level.begin(), n.level.end()));
     }
     std::ostringstream m;
-    m << "adaptive-sparse-grid: " << refinements << " refinements, " << nodes_.size() << " tensor rules (" << old
+    m << "adaptive-sparse-grid: " << refinements << " refinements (" << explorations_
+      << " explorations where the hold-out error exceeded twice the active indicators), " << nodes_.size() << " tensor rules (" << old
       << " refined, " << nodes_.size() - old << " active), highest Leja level " << highest << ", " << cache_.size()
       << " model runs of which " << hold_points_.rows() << " hold-out";
     out.notes.push_back(m.str());
@@ -371,6 +515,7 @@ class Builder {
   std::vector<int> rule_of_;
   std::vector<Node> nodes_;
   std::map<Level, int> node_of_;
+  int explorations_ = 0;  // refinements chosen by unblock() or probe() (blind indicators)
   Eigen::MatrixXd total_;
   Eigen::Index used_ = 0;
   std::map<std::vector<int>, Eigen::Index> row_of_;

@@ -152,13 +152,16 @@ struct AdaptiveOutcome {
 /// Runs of the first step of each adaptive method (checked in `check`).
 int adaptive_sparse_grid_first_runs(const std::vector<germ::FamilySpec>& families);
 int sparse_regression_first_runs(const std::vector<germ::FamilySpec>& families, int max_model_runs);
+/// Hold-out runs of sparse regression (0 when fewer than kMinHoldOutRuns fit beside the least design).
+int sparse_regression_hold_out(const std::vector<germ::FamilySpec>& families, int max_model_runs);
 
 /// Dimension-adaptive Smolyak pseudo-spectral projection on Leja rules.
 AdaptiveOutcome adaptive_sparse_grid(const std::vector<germ::FamilySpec>& families, int n_times, int n_outputs,
                                      const casefile::SurrogateOptions& options, RunCache& cache);
 
 /// Degree-adaptive sparse regression (simultaneous orthogonal matching pursuit
-/// with corrected leave-one-out selection) on a growing Sobol design.
+/// with corrected leave-one-out selection) on a growing Sobol design; error
+/// estimate from the hold-out runs.
 AdaptiveOutcome sparse_regression(const std::vector<germ::FamilySpec>& families, int n_times, int n_outputs,
                                   const casefile::SurrogateOptions& options, RunCache& cache);
 

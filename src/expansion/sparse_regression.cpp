@@ -17,8 +17,15 @@
 //   ε* = T(P, N) · Σ_k mean_i (r_ik / (1 − h_i))²,
 // T the factor of Chapelle, Vapnik & Bengio (build_parts.h); the step with the
 // least ε* is kept; the degree rises until ε* increased at two degrees in a row.
+// Error estimate: ε* chose the terms on the same runs it is measured on, so it
+// is optimistic after a greedy selection (measured: 0.14 of the true error on
+// Ishigami). The returned estimate is therefore the error at the hold-out runs
+// (build_parts.h, up to 40 germ points that take no part in the fit or the
+// selection), as for the grids: a validation-set estimate (Hastie, Tibshirani &
+// Friedman 2009, §7.2).
 // Design: the first N points of the Sobol sequence, N growing by half while the
-// estimate exceeds tolerance (nested: every earlier run is reused).
+// estimate exceeds tolerance (nested: every earlier run is reused), within
+// max_model_runs less the hold-out.
 #include <algorithm>
 #include <optional>
 
@@ -156,14 +163,15 @@ Path somp(const Eigen::MatrixXd& psi, const Eigen::MatrixXd& z) {
 struct SparseFit {
   MultiIndexSet indices;
   Eigen::MatrixXd coefficients;
-  Eigen::VectorXd estimate;
+  Eigen::VectorXd estimate;  // hold-out relative RMSE per output
+  double corrected_loo = 0.0;  // worst output's ε* as a relative RMSE (selection criterion)
   int degree = 0;
   int runs = 0;
 };
 
 SparseFit fit_on(const std::vector<germ::FamilySpec>& families, const MultiIndexSet& candidates,
                  const std::vector<Eigen::Index>& selected, const Eigen::MatrixXd& points, const Eigen::MatrixXd& y,
-                 int n_times, int n_outputs) {
+                 const Eigen::MatrixXd& hold_points, const Eigen::MatrixXd& hold_values, int n_times, int n_outputs) {
   std::vector<std::vector<int>> rows;
   for (Eigen::Index j : selected)
     rows.emplace_back(candidates.row(j).data(), candidates.row(j).data() + candidates.cols());
@@ -179,7 +187,9 @@ SparseFit fit_on(const std::vector<germ::FamilySpec>& families, const MultiIndex
                                              projection.matrix.squaredNorm());
   const Eigen::VectorXd mse =
       factor * (residual.array().colwise() / one_minus_h).square().colwise().mean().transpose().matrix();
-  f.estimate = pooled_relative_rmse(mse, f.coefficients, n_times, n_outputs);
+  f.corrected_loo = pooled_relative_rmse(mse, f.coefficients, n_times, n_outputs).maxCoeff();
+  f.estimate = pooled_relative_rmse(hold_out_mse(families, f.indices, f.coefficients, hold_points, hold_values),
+                                    f.coefficients, n_times, n_outputs);
   f.degree = f.indices.rowwise().sum().maxCoeff();
   f.runs = static_cast<int>(y.rows());
   return f;
@@ -187,10 +197,15 @@ SparseFit fit_on(const std::vector<germ::FamilySpec>& families, const MultiIndex
 
 }  // namespace
 
+int sparse_regression_hold_out(const std::vector<germ::FamilySpec>& families, int max_model_runs) {
+  return hold_out_size(max_model_runs - 2 * (static_cast<int>(families.size()) + 1));
+}
+
 int sparse_regression_first_runs(const std::vector<germ::FamilySpec>& families, int max_model_runs) {
   const int d = static_cast<int>(families.size());
-  // Linear basis (d + 1 terms) with the least oversampling of 2, or 4(d + 1) runs when the budget allows.
-  return std::max(2 * (d + 1), std::min(max_model_runs, 4 * (d + 1)));
+  // Linear basis (d + 1 terms) with the least oversampling of 2, or 4(d + 1) runs
+  // when the budget beside the hold-out allows.
+  return std::max(2 * (d + 1), std::min(max_model_runs - sparse_regression_hold_out(families, max_model_runs), 4 * (d + 1)));
 }
 
 AdaptiveOutcome sparse_regression(const std::vector<germ::FamilySpec>& families, int n_times, int n_outputs,
@@ -198,12 +213,26 @@ AdaptiveOutcome sparse_regression(const std::vector<germ::FamilySpec>& families,
   const int d = static_cast<int>(families.size());
   const double q = options.key_where.keys.count("q_norm") ? options.q_norm : kDefaultQNorm;
   AdaptiveOutcome out;
+  const int n_hold = sparse_regression_hold_out(families, options.max_model_runs);
+  if (n_hold == 0) throw std::logic_error("sparse_regression: the first design does not fit (checked earlier)");
+  const int design_budget = options.max_model_runs - n_hold;
+  const Eigen::MatrixXd hold_points = hold_out_points(families, n_hold);
+  Eigen::MatrixXd hold_values;
   int n = sparse_regression_first_runs(families, options.max_model_runs);
   std::optional<SparseFit> best;
   std::vector<std::string> degree_notes;
   while (true) {
     const Eigen::MatrixXd points = design::sobol_design(families, n);
-    const Eigen::MatrixXd y = cache.values(points);
+    Eigen::MatrixXd y;
+    if (hold_values.size() == 0) {  // the first design and the hold-out in one evaluator call
+      Eigen::MatrixXd all(points.rows() + hold_points.rows(), d);
+      all << points, hold_points;
+      const Eigen::MatrixXd values = cache.values(all);
+      y = values.topRows(points.rows());
+      hold_values = values.bottomRows(hold_points.rows());
+    } else {
+      y = cache.values(points);
+    }
     const Eigen::MatrixXd z = reduced_outputs(y, n_times, n_outputs);
     Path chosen;
     MultiIndexSet chosen_candidates;
@@ -225,12 +254,14 @@ AdaptiveOutcome sparse_regression(const std::vector<germ::FamilySpec>& families,
         break;
       }
     }
-    SparseFit f = fit_on(families, chosen_candidates, chosen.selected, points, y, n_times, n_outputs);
+    SparseFit f =
+        fit_on(families, chosen_candidates, chosen.selected, points, y, hold_points, hold_values, n_times, n_outputs);
     out.history.emplace_back(n, f.estimate.maxCoeff());
     out.runs_per_refinement.push_back(cache.size());
     {
       std::ostringstream m;
-      m << n << " runs: degree " << f.degree << ", " << f.indices.rows() << " terms (" << degree_stop << ")";
+      m << n << " runs: degree " << f.degree << ", " << f.indices.rows() << " terms (" << degree_stop
+        << "), corrected LOO " << f.corrected_loo << ", hold-out " << f.estimate.maxCoeff();
       degree_notes.push_back(m.str());
     }
     const bool met = (f.estimate.array() <= options.tolerance).all();
@@ -242,21 +273,21 @@ AdaptiveOutcome sparse_regression(const std::vector<germ::FamilySpec>& families,
       out.stop_reason = m.str();
       break;
     }
-    if (n >= options.max_model_runs) {
+    if (n >= design_budget) {
       std::ostringstream m;
       m << "run budget max_model_runs = " << options.max_model_runs << " spent before meeting tolerance "
         << options.tolerance;
       out.stop_reason = m.str();
       break;
     }
-    n = std::min(options.max_model_runs, static_cast<int>(std::ceil(kGrowth * n)));
+    n = std::min(design_budget, static_cast<int>(std::ceil(kGrowth * n)));
   }
   out.indices = std::move(best->indices);
   out.coefficients = std::move(best->coefficients);
   out.error_estimate = best->estimate;
   std::ostringstream m;
   m << "sparse-regression (q_norm " << q << "): " << out.history.size() << " designs; kept the fit on " << best->runs
-    << " runs";
+    << " runs; error estimate from " << n_hold << " hold-out runs";
   out.notes.push_back(m.str());
   std::ostringstream steps;
   steps << "sparse-regression designs:";

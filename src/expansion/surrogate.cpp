@@ -105,6 +105,9 @@ constexpr int kMaxDegree = 60;
 // Latin hypercube designs of the surrogate are seeded by this fixed value so that
 // a case gives the same surrogate on every run (common practice: fixed seeds).
 constexpr std::uint64_t kLatinHypercubeSeed = 0x5eed1a7cULL;
+// A coefficient below this share of its column's standard deviation is round-off
+// for the report of which inputs matter (double precision leaves ~1e-16).
+constexpr double kNegligibleCoefficient = 1e-10;
 
 SourceLocation at(const casefile::SurrogateOptions& options, const std::string& key) {
   SourceLocation where = options.where;
@@ -143,7 +146,8 @@ int dimension_adaptive_first_runs(const std::vector<germ::FamilySpec>& families,
     return detail::adaptive_sparse_grid_first_runs(families) +
            std::max(detail::kMinHoldOutRuns,
                     detail::hold_out_size(options.max_model_runs - detail::adaptive_sparse_grid_first_runs(families)));
-  return detail::sparse_regression_first_runs(families, options.max_model_runs);
+  return detail::sparse_regression_first_runs(families, options.max_model_runs) +
+         std::max(detail::kMinHoldOutRuns, detail::sparse_regression_hold_out(families, options.max_model_runs));
 }
 
 void validate(const std::vector<germ::FamilySpec>& families, const casefile::SurrogateOptions& options) {
@@ -170,7 +174,8 @@ void validate(const std::vector<germ::FamilySpec>& families, const casefile::Sur
           << (options.method == casefile::SurrogateMethod::adaptive_sparse_grid
                   ? " (the centre, 4 Leja points per dimension and " + std::to_string(detail::kMinHoldOutRuns) +
                         " hold-out runs)"
-                  : " (two per linear basis function)")
+                  : " (two per linear basis function and " + std::to_string(detail::kMinHoldOutRuns) +
+                        " hold-out runs)")
           << ", more than max_model_runs = " << options.max_model_runs;
         throw InputError(at(options, "surrogate.max_model_runs"), m.str());
       }
@@ -404,10 +409,24 @@ Surrogate build_dimension_adaptive(const std::vector<germ::FamilySpec>& families
   out.tolerance_met = outcome.tolerance_met;
   out.runs_per_refinement = outcome.runs_per_refinement;
   out.stop_reason = outcome.stop_reason;
-  for (Eigen::Index k = 0; k < outcome.indices.cols(); ++k) {
-    int degree = 0, terms = 0;
+  // Which inputs matter: the terms that carry variance. An exploration of the
+  // adaptive grid may leave terms of an inert input whose coefficients are
+  // round-off (below kNegligibleCoefficient of the column's standard deviation
+  // in every column); they do not count as retained.
+  MultiIndexSet carrying(0, outcome.indices.cols());
+  {
+    const Eigen::RowVectorXd sd =
+        outcome.coefficients.bottomRows(outcome.coefficients.rows() - 1).colwise().norm();
+    std::vector<Eigen::Index> keep;
     for (Eigen::Index r = 0; r < outcome.indices.rows(); ++r)
-      if (outcome.indices(r, k) > 0) degree = std::max(degree, outcome.indices(r, k)), ++terms;
+      if ((outcome.coefficients.row(r).cwiseAbs().array() > kNegligibleCoefficient * sd.array()).any()) keep.push_back(r);
+    carrying.resize(static_cast<Eigen::Index>(keep.size()), outcome.indices.cols());
+    for (std::size_t j = 0; j < keep.size(); ++j) carrying.row(static_cast<Eigen::Index>(j)) = outcome.indices.row(keep[j]);
+  }
+  for (Eigen::Index k = 0; k < carrying.cols(); ++k) {
+    int degree = 0, terms = 0;
+    for (Eigen::Index r = 0; r < carrying.rows(); ++r)
+      if (carrying(r, k) > 0) degree = std::max(degree, carrying(r, k)), ++terms;
     out.retained_degree_per_input.push_back(degree);
     out.retained_terms_per_input.push_back(terms);
   }
@@ -418,7 +437,7 @@ Surrogate build_dimension_adaptive(const std::vector<germ::FamilySpec>& families
   out.notes.push_back("stopped: " + outcome.stop_reason);
   for (auto& note : outcome.notes) out.notes.push_back(std::move(note));
   out.notes.push_back(runs_note(outcome.runs_per_refinement));
-  out.notes.push_back(detail::retained_per_input(outcome.indices));
+  out.notes.push_back(detail::retained_per_input(carrying));
   finish_summary(out, cache, n_times, n_outputs, outcome.history);
 
   return make_surrogate(families, std::move(outcome.indices), std::move(outcome.coefficients), n_times, n_outputs);

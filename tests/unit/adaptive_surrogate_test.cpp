@@ -11,6 +11,8 @@
 #include <numbers>
 #include <string>
 
+#include "sigmatube/app/analysis.h"
+#include "sigmatube/app/case_loader.h"
 #include "sigmatube/core/counter_rng.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/design/leja.h"
@@ -114,6 +116,7 @@ void check_ishigami(SurrogateMethod method, int inert, int budget, const char* l
               "estimate %.3g, measured %.3g, ratio %.2f\n",
               label, d, summary.model_runs, s.mean()(0, 0), fn.a / 2, sd * sd, v, first(0, 0), first(0, 1),
               first(0, 3), total(0, 2), summary.error_estimate[0], measured, summary.error_estimate[0] / measured);
+  for (const auto& note : summary.notes) std::printf("  %s\n", note.c_str());
   EXPECT_LE(summary.model_runs, budget);
   EXPECT_LE(model.points, summary.model_runs);  // every point ran once
   EXPECT_NEAR(s.mean()(0, 0) / (fn.a / 2), 1.0, kMomentTolerance);
@@ -127,13 +130,16 @@ void check_ishigami(SurrogateMethod method, int inert, int budget, const char* l
   EXPECT_NEAR(total(0, 2), fn.v13() / v, kIndexTolerance);
   EXPECT_NEAR(total(0, 3), fn.v4() / v, kIndexTolerance);
   for (int k = 4; k < d; ++k) EXPECT_NEAR(total(0, k), 0.0, kIndexTolerance) << "inert input " << k;
-  // Which inputs matter: the inert ones keep no term of their own.
+  // Which inputs matter: the inert ones keep no term that carries variance (an
+  // exploration of the adaptive grid may visit them; their coefficients are
+  // round-off and not counted).
   ASSERT_EQ(static_cast<int>(summary.retained_terms_per_input.size()), d);
   if (method == SurrogateMethod::adaptive_sparse_grid)
-    for (int k = 4; k < d; ++k) EXPECT_LE(summary.retained_degree_per_input[k], 2) << "inert input " << k;
-  // The estimate / measured ratio is printed above; for sparse regression the
-  // corrected leave-one-out error after greedy selection is optimistic here
-  // (ratio 0.14, below the [1/3, 10] target: reported as unmet in the notes).
+    for (int k = 4; k < d; ++k) EXPECT_EQ(summary.retained_terms_per_input[k], 0) << "inert input " << k;
+  // The error estimate of the surrogate returned against the measured error
+  // (issue 10, item 3).
+  EXPECT_GE(summary.error_estimate[0] / measured, kRatioLow) << label;
+  EXPECT_LE(summary.error_estimate[0] / measured, kRatioHigh) << label;
 }
 
 }  // namespace
@@ -141,10 +147,10 @@ void check_ishigami(SurrogateMethod method, int inert, int budget, const char* l
 TEST(LejaRules, InterpolatoryWeightsIntegrateMomentsExactly) {
   // Closed-form moments: E[ξ^k] = (k − 1)!! for even k under N(0, 1), 1/(k + 1)
   // under U(−1, 1), 0 for odd k; a rule of n points integrates degree ≤ n − 1.
-  constexpr double kMomentRelative = 1e-9;  // Vandermonde solve of ≤ 15 points
+  constexpr double kMomentRelative = 1e-9;  // Vandermonde solve of ≤ 13 points
   for (const Family family : {Family::hermite, Family::legendre}) {
     sigmatube::design::LejaRules rules(FamilySpec{family});
-    for (int level = 1; level <= 7; ++level) {
+    for (int level = 1; level <= 4; ++level) {
       const auto& rule = rules.rule(level);
       ASSERT_EQ(rule.size(), sigmatube::design::leja_level_points(level));
       for (int k = 0; k < rule.size(); ++k) {
@@ -182,6 +188,47 @@ TEST(SparseRegression, IshigamiWithInertAndWeakInputs) {
   check_ishigami(SurrogateMethod::sparse_regression, 3, 1500, "sparse-regression");
 }
 
+TEST(DimensionAdaptive, IshigamiWithInertAndWeakInputs) {
+  // x3 acts only through x3⁴ sin x1, which vanishes on every line through the
+  // centre x1 = 0 where the Leja rules are anchored: the surplus indicators alone
+  // never admit it, the hold-out error does (breadth-first exploration).
+  check_ishigami(SurrogateMethod::adaptive_sparse_grid, 3, 1500, "adaptive-sparse-grid");
+}
+
+TEST(ErrorEstimate, EveryMethodIsCalibratedOnIshigami) {
+  // The Ishigami function of three inputs (Ishigami & Homma 1990) with every
+  // surrogate method: the error estimate of the surrogate returned over its
+  // relative RMSE measured on 20 000 independent points lies in [1/3, 10].
+  const Ishigami fn{7.0, 0.1, 0.0};
+  const std::vector<FamilySpec> families(4, FamilySpec{Family::legendre});  // the fourth (c = 0) is inert
+  struct Setting {
+    SurrogateMethod method;
+    int level, degree;
+  };
+  for (const Setting setting : {Setting{SurrogateMethod::sparse_grid, 5, 0}, Setting{SurrogateMethod::tensor_grid, 0, 7},
+                                Setting{SurrogateMethod::regression, 0, 6}, Setting{SurrogateMethod::regression, 0, 9},
+                                Setting{SurrogateMethod::adaptive_sparse_grid, 0, 0},
+                                Setting{SurrogateMethod::sparse_regression, 0, 0}}) {
+    VectorModel model{1, [&](const double* x, double* y) { y[0] = fn(x); }};
+    SurrogateOptions o = adaptive_options(setting.method, 1e-3, 1000);
+    o.level = setting.level;
+    o.degree = setting.degree;
+    o.oversampling = 3.0;
+    if (setting.method == SurrogateMethod::sparse_grid || setting.method == SurrogateMethod::tensor_grid ||
+        setting.method == SurrogateMethod::regression)
+      o.max_model_runs = 100000;
+    SurrogateSummary summary;
+    const Surrogate s = build_surrogate(families, 1, 1, o, model.evaluator(), &summary);
+    const double measured = measured_relative_rmse(s, families, model, 20000);
+    const double ratio = summary.error_estimate[0] / measured;
+    std::printf("Ishigami %s level %d degree %d: %d runs, estimate %.3g, measured %.3g, ratio %.2f\n",
+                summary.method.c_str(), setting.level, setting.degree, summary.model_runs, summary.error_estimate[0],
+                measured, ratio);
+    EXPECT_GE(ratio, kRatioLow) << summary.method << " degree " << setting.degree;
+    EXPECT_LE(ratio, kRatioHigh) << summary.method << " degree " << setting.degree;
+  }
+}
+
 TEST(DimensionAdaptive, SobolGFunctionFirstOrderIndices) {
   // g = Π (|4u_i − 2| + a_i)/(1 + a_i), u_i = (ξ_i + 1)/2 ~ U(0, 1), with
   // a = (1, 2, 5, 10, 99, 99) (Saltelli & Sobol' 1995 family of test functions):
@@ -206,13 +253,19 @@ TEST(DimensionAdaptive, SobolGFunctionFirstOrderIndices) {
     SurrogateSummary summary;
     const Surrogate s = build_surrogate(families, 1, 1, adaptive_options(method, 1e-3, 800), model.evaluator(), &summary);
     const Eigen::MatrixXd first = s.sobol_first();
-    std::printf("g-function %s: %d runs, S = %.4f %.4f %.4f %.4f (exact %.4f %.4f %.4f %.4f), estimate %.3g\n",
-                summary.method.c_str(), summary.model_runs, first(0, 0), first(0, 1), first(0, 2), first(0, 3),
-                vi[0] / v, vi[1] / v, vi[2] / v, vi[3] / v, summary.error_estimate[0]);
+    std::printf("g-function %s: %d runs, mean %.5f (exact 1), S = %.4f %.4f %.4f %.4f (exact %.4f %.4f %.4f %.4f), "
+                "estimate %.3g\n",
+                summary.method.c_str(), summary.model_runs, s.mean()(0, 0), first(0, 0), first(0, 1), first(0, 2),
+                first(0, 3), vi[0] / v, vi[1] / v, vi[2] / v, vi[3] / v, summary.error_estimate[0]);
+    for (const auto& note : summary.notes) std::printf("  %s\n", note.c_str());
     for (int i = 0; i < d; ++i) EXPECT_NEAR(first(0, i), vi[i] / v, kKinkTolerance) << summary.method << " input " << i;
     EXPECT_LE(summary.model_runs, 800);
     // E[g] = 1 exactly. The adaptive sparse grid anchors every rule at the centre
-    // u = 1/2, the kink itself, and its mean is off by 4 % (unmet, see the notes).
+    // u = 1/2, the kink itself, where each factor takes its least value
+    // a_i/(1 + a_i): the Smolyak sum corrects that anchor only through mixed
+    // differences, which for a kink decay algebraically, and its mean is off by
+    // 3 % at 800 runs (0.969; unmet, see docs/methods.md). Sparse regression on
+    // a space-filling design is not anchored.
     if (method == SurrogateMethod::sparse_regression) EXPECT_NEAR(s.mean()(0, 0), 1.0, kKinkTolerance);
   }
 }
@@ -326,6 +379,48 @@ TEST(ErrorEstimate, FixedMethodsAreCalibratedAgainstTheMeasuredError) {
     if (!(setting.method == SurrogateMethod::regression && setting.degree == 3)) {
       EXPECT_GE(ratio, kRatioLow) << summary.method;
       EXPECT_LE(ratio, kRatioHigh) << summary.method;
+    }
+  }
+}
+
+TEST(ErrorEstimate, EveryMethodIsCalibratedOnAClosedLoopCase) {
+  // The gantry-crane demo (closed loop: LQR anti-sway tracking with an actuator
+  // limit, 3 uncertain inputs) with every surrogate method: the error estimate of
+  // each output over the relative RMSE the Monte Carlo validation measures on
+  // 1000 independent full-model runs lies in [1/3, 10].
+  if (std::getenv("SIGMATUBE_SANITIZED")) GTEST_SKIP() << "about 10 000 closed-loop runs; run in the Release build";
+  struct Setting {
+    SurrogateMethod method;
+    int level, degree;
+  };
+  for (const Setting setting : {Setting{SurrogateMethod::sparse_grid, 3, 0}, Setting{SurrogateMethod::tensor_grid, 0, 3},
+                                Setting{SurrogateMethod::regression, 0, 3},
+                                Setting{SurrogateMethod::adaptive_sparse_grid, 0, 0},
+                                Setting{SurrogateMethod::sparse_regression, 0, 0}}) {
+    auto loaded = sigmatube::app::load_case(std::string(SIGMATUBE_SOURCE_DIR) + "/cases/gantry-crane/case.toml");
+    SurrogateOptions& o = loaded.options.surrogate;
+    o.method = setting.method;
+    o.level = setting.level;
+    o.degree = setting.degree;
+    o.oversampling = 3.0;
+    o.tolerance = 1e-3;
+    o.max_model_runs = 400;
+    sigmatube::app::AnalysisOptions run;
+    run.threads = 2;
+    run.progress = false;
+    run.mc_runs = 1000;
+    run.samples = 20000;
+    const auto result = sigmatube::app::analyze_case(loaded, run);
+    const Eigen::VectorXd& estimate = result.surrogate.error_estimate;
+    const Eigen::VectorXd& measured = result.montecarlo.validation_relative_rmse;
+    ASSERT_EQ(estimate.size(), measured.size());
+    for (Eigen::Index k = 0; k < estimate.size(); ++k) {
+      const double ratio = estimate[k] / measured[k];
+      std::printf("gantry-crane %s: %lld runs, output %s: estimate %.3g, validation %.3g, ratio %.2f\n",
+                  result.surrogate.method.c_str(), result.surrogate.model_runs, result.output_names[k].c_str(),
+                  estimate[k], measured[k], ratio);
+      EXPECT_GE(ratio, kRatioLow) << result.surrogate.method << " " << result.output_names[k];
+      EXPECT_LE(ratio, kRatioHigh) << result.surrogate.method << " " << result.output_names[k];
     }
   }
 }

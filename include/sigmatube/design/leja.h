@@ -11,10 +11,12 @@
 // points are interpolatory for the orthonormal basis,
 //   Σ_j w_j ψ_k(x_j) = δ_k0,  k = 0…n−1,
 // so the n-point rule integrates every polynomial of degree ≤ n − 1 exactly.
-// Adaptive level l uses n(1) = 1 and n(l) = 2l + 1 points (l ≥ 2): level 2
-// already reaches degree 2, so an input whose effect is even (x², sin² x) is
-// seen at the first refinement; each further level adds two points and one
-// degree of the pseudo-spectral projection (⌊(n − 1)/2⌋ = l).
+// Adaptive level l uses n(l) = 4l − 3 points (1, 5, 9, 13, …): each level
+// adds four points and two degrees of the pseudo-spectral projection
+// (⌊(n − 1)/2⌋ = 2l − 2), one odd and one even, so that a refinement of an
+// input whose effect is odd (sin x) or even (x², sin² x) always shows in its
+// surplus. (With one degree per level, every other surplus of such an input is
+// near zero and the greedy index search stops in front of it.)
 #include <deque>
 #include <vector>
 
@@ -30,7 +32,7 @@ std::vector<double> weighted_leja_points(const germ::FamilySpec& spec, int n);
 /// NumericalError when the Vandermonde system is singular.
 QuadratureRule interpolatory_rule(const germ::FamilySpec& spec, const std::vector<double>& points);
 
-/// Points of adaptive level l ≥ 1: 1, then 2l + 1.
+/// Points of adaptive level l ≥ 1: 4l − 3.
 int leja_level_points(int level);
 /// Highest degree the pseudo-spectral projection of level l may use: ⌊(n(l) − 1)/2⌋.
 int leja_level_degree(int level);

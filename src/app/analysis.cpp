@@ -17,6 +17,7 @@
 #include "sigmatube/core/counter_rng.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/core/parallel.h"
+#include "sigmatube/core/scrambled_sobol.h"
 #include "sigmatube/expansion/surrogate.h"
 #include "sigmatube/montecarlo/agreement.h"
 #include "sigmatube/montecarlo/importance_sampling.h"
@@ -302,17 +303,39 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
     const CounterRng rng(mc_options.seed ^ kSurrogateStream);
     ProgressBar bar("surrogate sampling", static_cast<std::size_t>(samples), options.progress && d > 0);
     std::atomic<long long> sampled{0};
-    surrogate_violations = constraints::stream_violation_statistics(
-        constraint_list, times, n_out, samples, kSurrogateChunk, threads,
-        [&](long long begin, long long end, Eigen::MatrixXd& Y) {
-          const Eigen::Index n = static_cast<Eigen::Index>(end - begin);
-          Eigen::MatrixXd z(n, d);
-          for (Eigen::Index i = 0; i < n; ++i)
-            for (int j = 0; j < d; ++j)
-              z(i, j) = rng.normal(static_cast<std::uint64_t>(begin + i), static_cast<std::uint64_t>(j));
-          surrogate_outputs(surrogate, germ_points(germ, z), columns, Y);
-          bar.update(static_cast<std::size_t>(sampled += n));
-        });
+    const auto& so = loaded.options.surrogate;
+    if (so.sampling == casefile::SurrogateSampling::precision && d > 0 && d <= ScrambledSobol::max_dimension()) {
+      // Scrambled Sobol replicates until every probability meets its target (samples = the cap).
+      constraints::PrecisionTarget target;
+      target.cap = samples;
+      target.relative = so.sampling_relative_error;
+      target.absolute = so.sampling_absolute_error;
+      const constraints::PrecisionSampling sampled_to_target = constraints::stream_to_precision(
+          constraint_list, times, n_out, target, kSurrogateChunk, threads,
+          [&](int replicate, long long first, long long count, Eigen::MatrixXd& Y) {
+            const ScrambledSobol sobol(d, mc_options.seed ^ kSurrogateStream, static_cast<std::uint64_t>(replicate));
+            Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> z(count, d);
+            sobol.normals(static_cast<std::uint64_t>(first), static_cast<std::size_t>(count), z.data());
+            surrogate_outputs(surrogate, germ_points(germ, z), columns, Y);
+            bar.update(static_cast<std::size_t>(std::min(samples, sampled += count)));
+          });
+      surrogate_violations = sampled_to_target.results;
+      s.samples = sampled_to_target.samples;
+      s.sampling = "precision";
+      s.sampling_target_met = sampled_to_target.target_met;
+    } else {
+      surrogate_violations = constraints::stream_violation_statistics(
+          constraint_list, times, n_out, samples, kSurrogateChunk, threads,
+          [&](long long begin, long long end, Eigen::MatrixXd& Y) {
+            const Eigen::Index n = static_cast<Eigen::Index>(end - begin);
+            Eigen::MatrixXd z(n, d);
+            for (Eigen::Index i = 0; i < n; ++i)
+              for (int j = 0; j < d; ++j)
+                z(i, j) = rng.normal(static_cast<std::uint64_t>(begin + i), static_cast<std::uint64_t>(j));
+            surrogate_outputs(surrogate, germ_points(germ, z), columns, Y);
+            bar.update(static_cast<std::size_t>(sampled += n));
+          });
+    }
     bar.finish();
     s.joint_path_probability = surrogate_violations.joint_probability;
   }

@@ -55,13 +55,17 @@ ScrambledSobol::ScrambledSobol(int dimension, std::uint64_t seed, std::uint64_t 
 
 void ScrambledSobol::uniforms(std::uint64_t first, std::size_t count, double* u) const {
   if (count == 0) return;
-  Engine engine(static_cast<std::size_t>(dimension_));
-  engine.seed(static_cast<std::uint32_t>(first));
   if (first > 0xFFFFFFFFull - count) throw std::out_of_range("ScrambledSobol: more than 2^32 points");
+  // Boost's engine leaves out the sequence's point 0 (the origin): after seed(k)
+  // it yields point k + 1. Point 0 is put back here, so that the first 2^m points
+  // are the whole net.
+  Engine engine(static_cast<std::size_t>(dimension_));
+  engine.seed(static_cast<std::uint32_t>(first == 0 ? 0 : first - 1));
   constexpr double kScale = 1.0 / 4294967296.0;
   for (std::size_t k = 0; k < count; ++k)
     for (int j = 0; j < dimension_; ++j) {
-      const std::uint32_t x = nested_uniform_scramble(engine(), keys_[j]);
+      const std::uint32_t raw = first + k == 0 ? 0u : engine();
+      const std::uint32_t x = nested_uniform_scramble(raw, keys_[j]);
       u[k * static_cast<std::size_t>(dimension_) + static_cast<std::size_t>(j)] = (static_cast<double>(x) + 0.5) * kScale;
     }
 }

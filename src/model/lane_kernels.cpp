@@ -98,6 +98,15 @@ SIGMATUBE_INLINE VecLanes lane_constants(const HcwLanes& c, std::size_t L, std::
 
 }  // namespace
 
+const char* active_target() {
+#if defined(__GNUC__) && defined(__x86_64__) && !defined(SIGMATUBE_NO_MULTIVERSIONING)
+  __builtin_cpu_init();
+  return __builtin_cpu_supports("avx2") ? "avx2" : "x86-64 baseline";
+#else
+  return "portable (no multiversioning)";
+#endif
+}
+
 SIGMATUBE_LANE_TARGETS
 void hcw_stage(std::size_t L, const double* x, const StageTerms& s, const HcwLanes& c, double* u_cmd, double* u_app,
                double* dx) {
@@ -139,11 +148,52 @@ void hcw_rk4_step(std::size_t L, const double* x, double* x_next, double h, cons
   check_lanes(L, kN, x_next, bound, ok);
 }
 
+namespace {
+// closed_loop_inputs for M inputs (M ≤ 4) and any n, in one pass over blocks of
+// four lanes with the commands in registers; the same operations per lane, in the
+// same order, as the generic loops below.
+template <int M>
+SIGMATUBE_INLINE void closed_loop_inputs_fixed(std::size_t L, int n, const double* x, const StageTerms& s,
+                                               const double* scale, const double* bias, const double* low,
+                                               const double* high, double* u_cmd, double* u_app) {
+  const Vec zero = broadcast(0.0);
+  for (std::size_t l = 0; l < L; l += kW) {
+    const std::size_t valid = std::min(kW, L - l);
+    Vec u[M];
+    for (int i = 0; i < M; ++i) u[i] = broadcast(s.u_ff[i]);
+    for (int j = 0; j < n; ++j) {
+      const Vec e = gather(x + j * L, l, valid) - broadcast(s.x_ref[j]);
+      for (int i = 0; i < M; ++i) {
+        const Vec term = broadcast(s.gain[i * n + j]) * e;
+        u[i] -= e != zero ? term : zero;
+      }
+    }
+    for (int i = 0; i < M; ++i) {
+      const Vec lo = broadcast(low[i]), hi = broadcast(high[i]);
+      Vec v = gather(scale + i * L, l, valid) * u[i] + gather(bias + i * L, l, valid);
+      v = v < lo ? lo : v;
+      v = hi < v ? hi : v;
+      scatter(u_cmd + i * L, l, valid, u[i]);
+      scatter(u_app + i * L, l, valid, v);
+    }
+  }
+}
+}  // namespace
+
 SIGMATUBE_LANE_TARGETS
 void closed_loop_inputs(std::size_t L, int n, int m, const double* __restrict x, const StageTerms& s, bool feedback,
                         const double* __restrict scale, const double* __restrict bias, const double* low,
                         const double* high, double* __restrict error, double* __restrict u_cmd,
                         double* __restrict u_app) {
+  if (feedback) {
+    switch (m) {
+      case 1: return closed_loop_inputs_fixed<1>(L, n, x, s, scale, bias, low, high, u_cmd, u_app);
+      case 2: return closed_loop_inputs_fixed<2>(L, n, x, s, scale, bias, low, high, u_cmd, u_app);
+      case 3: return closed_loop_inputs_fixed<3>(L, n, x, s, scale, bias, low, high, u_cmd, u_app);
+      case 4: return closed_loop_inputs_fixed<4>(L, n, x, s, scale, bias, low, high, u_cmd, u_app);
+      default: break;
+    }
+  }
   for (int i = 0; i < m; ++i) {
     double* u = u_cmd + i * L;
     const double f = s.u_ff[i];

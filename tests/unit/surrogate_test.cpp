@@ -10,6 +10,7 @@
 #include "sigmatube/core/error.h"
 #include "sigmatube/design/sampling_design.h"
 #include "sigmatube/design/sparse_grid.h"
+#include "sigmatube/expansion/multi_index.h"
 
 using namespace sigmatube::expansion;
 using sigmatube::casefile::RegressionDesign;
@@ -261,7 +262,7 @@ TEST(Surrogate, EvaluateEqualsBasisMatrixTimesCoefficients) {
   constexpr double kRounding = 1e-12;
   Surrogate s;
   s.families = {{Family::hermite}, {Family::legendre}, {Family::hermite}};
-  s.indices = total_degree_set(3, 2);
+  s.indices = sigmatube::expansion::total_degree_set(3, 2);
   s.n_times = 3;
   s.n_outputs = 3;
   s.coefficients = Eigen::MatrixXd::Random(s.indices.rows(), 9);

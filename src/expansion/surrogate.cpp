@@ -19,89 +19,9 @@
 #include "sigmatube/expansion/sobol_indices.h"
 #include "sigmatube/expansion/tensor_projection.h"
 
-#if defined(__GNUC__) && defined(__x86_64__)
-#include <immintrin.h>
-#define SIGMATUBE_HAVE_FMA_KERNEL 1
-#endif
-
 namespace sigmatube::expansion {
 
 // ---------------------------------------------------------------- Surrogate
-
-namespace {
-
-#if SIGMATUBE_HAVE_FMA_KERNEL
-// C = A·B, column-major (A [M, K] with leading dimension lda, B [K, N], C [M, N]
-// with ldc), with AVX2 fused multiply–adds: panels of kPanel rows of A (kept in
-// the L2 cache while every column block of B passes), register tiles of 12 rows ×
-// 4 columns (12 accumulators), remainders by 4-row vectors and scalar FMAs.
-// Each C entry is one chain of FMAs over k = 0 … K − 1 in order, so the result
-// does not depend on the panel or tile an entry falls in (nor on threads).
-constexpr int kPanel = 192;
-
-template <int NJ>
-__attribute__((target("avx2,fma"))) inline void tile_columns(int rows, int K, const double* A, long lda,
-                                                              const double* B, long ldb, double* C, long ldc) {
-  int i = 0;
-  for (; i + 12 <= rows; i += 12) {
-    __m256d c0[NJ], c1[NJ], c2[NJ];
-    for (int j = 0; j < NJ; ++j) c0[j] = c1[j] = c2[j] = _mm256_setzero_pd();
-    for (int k = 0; k < K; ++k) {
-      const double* a = A + static_cast<long>(k) * lda + i;
-      const __m256d a0 = _mm256_loadu_pd(a), a1 = _mm256_loadu_pd(a + 4), a2 = _mm256_loadu_pd(a + 8);
-      for (int j = 0; j < NJ; ++j) {
-        const __m256d b = _mm256_broadcast_sd(B + static_cast<long>(j) * ldb + k);
-        c0[j] = _mm256_fmadd_pd(a0, b, c0[j]);
-        c1[j] = _mm256_fmadd_pd(a1, b, c1[j]);
-        c2[j] = _mm256_fmadd_pd(a2, b, c2[j]);
-      }
-    }
-    for (int j = 0; j < NJ; ++j) {
-      double* c = C + static_cast<long>(j) * ldc + i;
-      _mm256_storeu_pd(c, c0[j]);
-      _mm256_storeu_pd(c + 4, c1[j]);
-      _mm256_storeu_pd(c + 8, c2[j]);
-    }
-  }
-  for (; i + 4 <= rows; i += 4) {
-    __m256d c0[NJ];
-    for (int j = 0; j < NJ; ++j) c0[j] = _mm256_setzero_pd();
-    for (int k = 0; k < K; ++k) {
-      const __m256d a0 = _mm256_loadu_pd(A + static_cast<long>(k) * lda + i);
-      for (int j = 0; j < NJ; ++j) c0[j] = _mm256_fmadd_pd(a0, _mm256_broadcast_sd(B + static_cast<long>(j) * ldb + k), c0[j]);
-    }
-    for (int j = 0; j < NJ; ++j) _mm256_storeu_pd(C + static_cast<long>(j) * ldc + i, c0[j]);
-  }
-  for (; i < rows; ++i)
-    for (int j = 0; j < NJ; ++j) {
-      double acc = 0.0;
-      for (int k = 0; k < K; ++k) acc = std::fma(A[static_cast<long>(k) * lda + i], B[static_cast<long>(j) * ldb + k], acc);
-      C[static_cast<long>(j) * ldc + i] = acc;
-    }
-}
-
-__attribute__((target("avx2,fma"))) void gemm_fma(int M, int N, int K, const double* A, long lda, const double* B,
-                                                  long ldb, double* C, long ldc) {
-  for (int p = 0; p < M; p += kPanel) {
-    const int rows = std::min(kPanel, M - p);
-    int j = 0;
-    for (; j + 4 <= N; j += 4)
-      tile_columns<4>(rows, K, A + p, lda, B + static_cast<long>(j) * ldb, ldb, C + static_cast<long>(j) * ldc + p, ldc);
-    for (; j < N; ++j)
-      tile_columns<1>(rows, K, A + p, lda, B + static_cast<long>(j) * ldb, ldb, C + static_cast<long>(j) * ldc + p, ldc);
-  }
-}
-
-bool cpu_has_fma() {
-  static const bool has = [] {
-    __builtin_cpu_init();
-    return __builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma");
-  }();
-  return has;
-}
-#endif
-
-}  // namespace
 
 Eigen::MatrixXd Surrogate::basis_matrix(const Eigen::MatrixXd& points) const {
   return expansion::basis_matrix(families, indices, points);
@@ -128,15 +48,6 @@ void Surrogate::evaluate(const Eigen::MatrixXd& points, Eigen::MatrixXd& values,
     const Eigen::Index rows = std::min(kBlockRows, points.rows() - start);
     psi.resize(rows, basis_size());
     basis_matrix_into(families, indices, points.middleRows(start, rows), psi);
-#if SIGMATUBE_HAVE_FMA_KERNEL
-    // AVX2/FMA where the CPU has it (the values then differ from the baseline
-    // build's in the last bits; the same on every thread and rank of one CPU kind).
-    if (cpu_has_fma() && c->cols() > 0 && basis_size() > 0) {
-      gemm_fma(static_cast<int>(rows), static_cast<int>(c->cols()), basis_size(), psi.data(), psi.outerStride(),
-               c->data(), c->outerStride(), values.data() + start, values.outerStride());
-      continue;
-    }
-#endif
     values.middleRows(start, rows).noalias() = psi * (*c);
   }
 }

@@ -15,6 +15,7 @@
 
 #include "sigmatube/constraints/violation_statistics.h"
 #include "sigmatube/core/scrambled_sobol.h"
+#include "sphere_constraint.h"
 
 namespace sigmatube {
 namespace {
@@ -58,16 +59,7 @@ TEST(ScrambledSobol, PointsDependOnIndexOnlyAndReplicatesDiffer) {
   for (double v : whole) ASSERT_TRUE(v > 0.0 && v < 1.0);
 }
 
-casefile::ConstraintOptions sphere(double radius, double epsilon) {
-  casefile::ConstraintOptions o;
-  o.name = "keep-out";
-  o.type = casefile::ConstraintKind::outside_sphere;
-  o.position = {"x", "y", "z"};
-  o.center = {0, 0, 0};
-  o.radius = radius;
-  o.max_probability = epsilon;
-  return o;
-}
+casefile::ConstraintOptions sphere(double radius, double epsilon) { return test::keep_out_sphere(radius, epsilon); }
 
 // A Gaussian point N(m, I₃) inside a sphere of radius r about the origin:
 // P = F_ncx2(r²; 3, |m|²) (closed form, Boost.Math). Over independent seeds the

@@ -252,12 +252,11 @@ TEST(Surrogate, MeanStdAndSobolAreConsistentForEveryTimeAndOutput) {
   }
 }
 
-// Surrogate::evaluate multiplies the basis matrix by the coefficients with its
-// own AVX2/FMA kernel where the CPU has one: against Eigen's product of the same
-// matrices (the reference here), over row counts that cross the 4096-row block
-// and leave remainders of every tile size, and column counts 1 … 9. Entries are
-// sums of P = 10 products of order-1 numbers: FMA rounding differs from separate
-// rounding by a few units in the last place, far below the 1e-12 used.
+// Surrogate::evaluate works in blocks of 4096 rows and on chosen columns: against
+// Eigen's product of the whole basis matrix and the coefficients (the reference
+// here), over row counts that cross the block boundary, and column subsets.
+// Entries are sums of P = 10 products of order-1 numbers: blocking may change
+// the rounding by a few units in the last place, far below the 1e-12 used.
 TEST(Surrogate, EvaluateEqualsBasisMatrixTimesCoefficients) {
   constexpr double kRounding = 1e-12;
   Surrogate s;

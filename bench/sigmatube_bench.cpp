@@ -156,15 +156,7 @@ montecarlo::MonteCarloResult monte_carlo(const app::LoadedCase& loaded, long lon
   run_options.run_rows = [&](long long begin, long long, const Eigen::MatrixXd& xi, double* outputs, std::uint8_t* ok) {
     runner.run(xi, begin, threads, app::ModelRunner::kDefaultBlock, outputs, ok, false);
   };
-  const montecarlo::RunSample run = [&](const double* xi, long long sample, double* outputs, std::string* error) {
-    try {
-      runner.run_one(xi, sample, outputs);
-      return true;
-    } catch (const NumericalError& e) {
-      if (error) *error = e.what();
-      return false;
-    }
-  };
+  const montecarlo::RunSample run = runner.run_sample();
   const Eigen::VectorXd times = Eigen::Map<const Eigen::VectorXd>(cl.report_times().data(), static_cast<Eigen::Index>(cl.report_times().size()));
   return montecarlo::run_monte_carlo(options, loaded.germ->specs(), times, cl.output_count(), loaded.constraints, run,
                                      run_options);

@@ -22,6 +22,18 @@ void ModelRunner::run_one(const double* xi, long long sample, double* outputs) c
   Eigen::Map<Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>>(outputs, out.rows(), out.cols()) = out;
 }
 
+montecarlo::RunSample ModelRunner::run_sample() const {
+  return [this](const double* xi, long long sample, double* outputs, std::string* error) {
+    try {
+      run_one(xi, sample, outputs);
+      return true;
+    } catch (const NumericalError& e) {
+      if (error) *error = e.what();
+      return false;
+    }
+  };
+}
+
 // Rows of width T·n_out + 1: the outputs, then 1 (ran) or 0 (failed), so that the
 // status travels with the row between ranks.
 void ModelRunner::run_block(const Eigen::MatrixXd& points, long long first, std::size_t begin, std::size_t end,

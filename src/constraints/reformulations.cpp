@@ -78,4 +78,24 @@ std::vector<ReformulationDisagreement> find_reformulation_disagreements(
   return out;
 }
 
+std::string reformulation_note(const std::vector<ReformulationDisagreement>& found) {
+  if (found.empty()) return "";
+  int gaussian_optimistic = 0, gaussian_pessimistic = 0, cantelli_optimistic = 0;
+  for (const auto& d : found) {
+    switch (d.kind) {
+      case ReformulationDisagreement::Kind::gaussian_optimistic: ++gaussian_optimistic; break;
+      case ReformulationDisagreement::Kind::gaussian_pessimistic: ++gaussian_pessimistic; break;
+      case ReformulationDisagreement::Kind::cantelli_optimistic: ++cantelli_optimistic; break;
+    }
+  }
+  std::ostringstream out;
+  out << found.front().describe();
+  if (found.size() > 1) {
+    out << " (" << found.size() << " report times in all: ";
+    out << gaussian_optimistic << " Gaussian optimistic, " << gaussian_pessimistic << " Gaussian pessimistic, "
+        << cantelli_optimistic << " Cantelli optimistic)";
+  }
+  return out.str();
+}
+
 }  // namespace sigmatube::constraints

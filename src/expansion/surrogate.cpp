@@ -566,4 +566,39 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
   return surrogate;
 }
 
+Surrogate constant_surrogate(const Eigen::MatrixXd& nominal_outputs) {
+  Surrogate s;
+  s.n_times = static_cast<int>(nominal_outputs.rows());
+  s.n_outputs = static_cast<int>(nominal_outputs.cols());
+  s.indices.resize(1, 0);
+  s.coefficients.resize(1, static_cast<Eigen::Index>(s.n_times) * s.n_outputs);
+  for (int t = 0; t < s.n_times; ++t)
+    for (int o = 0; o < s.n_outputs; ++o) s.coefficients(0, t * s.n_outputs + o) = nominal_outputs(t, o);
+  return s;
+}
+
+void surrogate_outputs(const Surrogate& surrogate, const Eigen::MatrixXd& points, const std::vector<int>& columns,
+                       Eigen::MatrixXd& Y) {
+  Eigen::MatrixXd values;
+  surrogate.evaluate(points, values, columns);
+  Y.setZero(points.rows(), static_cast<Eigen::Index>(surrogate.n_times) * surrogate.n_outputs);
+  for (std::size_t k = 0; k < columns.size(); ++k) Y.col(columns[k]) = values.col(static_cast<Eigen::Index>(k));
+}
+
+SurrogateStage surrogate_stage(const std::vector<germ::FamilySpec>& families, const Eigen::MatrixXd& nominal_outputs,
+                               const casefile::SurrogateOptions& options, const ModelEvaluator& evaluate) {
+  SurrogateStage stage;
+  if (families.empty()) {
+    stage.surrogate = constant_surrogate(nominal_outputs);
+    stage.summary.method = "none (no uncertain inputs)";
+    stage.summary.model_runs = 1;
+    stage.summary.error_estimate = Eigen::VectorXd::Zero(nominal_outputs.cols());
+    stage.summary.notes.push_back("no uncertain inputs: every statistic is the nominal run's");
+  } else {
+    stage.surrogate = build_surrogate(families, static_cast<int>(nominal_outputs.rows()),
+                                      static_cast<int>(nominal_outputs.cols()), options, evaluate, &stage.summary);
+  }
+  return stage;
+}
+
 }  // namespace sigmatube::expansion

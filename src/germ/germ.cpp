@@ -462,4 +462,24 @@ const Eigen::MatrixXd& Germ::karhunen_loeve_basis(int index) const {
   return blocks_[kl_blocks_[index]].factor;
 }
 
+Eigen::MatrixXd germ_points(const Germ& germ, const Eigen::MatrixXd& z) {
+  const int d = germ.dimension();
+  Eigen::MatrixXd xi(z.rows(), d);
+  std::vector<double> zi(static_cast<std::size_t>(d)), x(static_cast<std::size_t>(d));
+  for (Eigen::Index i = 0; i < z.rows(); ++i) {
+    for (int j = 0; j < d; ++j) zi[static_cast<std::size_t>(j)] = z(i, j);
+    if (d > 0) germ.from_standard_normal(zi.data(), x.data());
+    for (int j = 0; j < d; ++j) xi(i, j) = x[static_cast<std::size_t>(j)];
+  }
+  return xi;
+}
+
+Eigen::MatrixXd standard_normal_points(const CounterRng& rng, long long first, Eigen::Index n, int d) {
+  Eigen::MatrixXd z(n, d);
+  for (Eigen::Index i = 0; i < n; ++i)
+    for (int j = 0; j < d; ++j)
+      z(i, j) = rng.normal(static_cast<std::uint64_t>(first + i), static_cast<std::uint64_t>(j));
+  return z;
+}
+
 }  // namespace sigmatube::germ

@@ -7,6 +7,7 @@
 #include "sigmatube/app/case_loader.h"
 #include "sigmatube/result/analysis_result.h"
 
+// Layer app/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::app {
 
 /// Command-line overrides of the case file, and how to run.

@@ -7,6 +7,7 @@
 
 #include "sigmatube/app/analysis.h"
 
+// Layer app/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::app {
 
 struct BatchOptions {

@@ -14,6 +14,7 @@
 #include "sigmatube/model/closed_loop.h"
 #include "sigmatube/model/model.h"
 
+// Layer app/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::app {
 
 struct LoadedCase {

@@ -12,7 +12,9 @@
 
 #include "sigmatube/app/case_loader.h"
 #include "sigmatube/model/batch_propagator.h"
+#include "sigmatube/montecarlo/monte_carlo.h"
 
+// Layer app/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::app {
 
 class ModelRunner {
@@ -32,6 +34,11 @@ class ModelRunner {
 
   /// One run at germ point xi into outputs[t·n_out + o]; throws NumericalError.
   void run_one(const double* xi, long long sample, double* outputs) const;
+
+  /// run_one as the Monte Carlo and importance-sampling stages call it: false,
+  /// with the message in *error, when the run fails with a NumericalError.
+  /// The runner must outlive the function.
+  montecarlo::RunSample run_sample() const;
 
   bool batched() const { return batch_.supported(); }
 

@@ -7,6 +7,7 @@
 #include <mutex>
 #include <string>
 
+// Layer app/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::app {
 
 class ProgressBar {

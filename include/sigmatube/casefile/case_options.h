@@ -12,6 +12,7 @@
 
 #include "sigmatube/core/error.h"
 
+// Layer casefile/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::casefile {
 
 /// Where each key of one table was written, so that a later stage (model factory,

@@ -5,6 +5,7 @@
 
 #include "sigmatube/casefile/case_options.h"
 
+// Layer casefile/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::casefile {
 
 /// Parses and validates everything that can be checked without building the model:

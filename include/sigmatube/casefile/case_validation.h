@@ -6,6 +6,7 @@
 
 #include "sigmatube/casefile/case_options.h"
 
+// Layer casefile/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::casefile {
 
 /// Checks, each with the location of the entry and the nearest valid name suggested:

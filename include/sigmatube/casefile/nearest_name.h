@@ -6,6 +6,7 @@
 #include <string_view>
 #include <vector>
 
+// Layer casefile/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::casefile {
 
 /// Levenshtein distance: the fewest single-character insertions, deletions and

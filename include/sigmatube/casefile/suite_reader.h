@@ -9,6 +9,7 @@
 
 #include "sigmatube/casefile/case_options.h"
 
+// Layer casefile/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::casefile {
 
 /// [defaults]: used by every case whose own file does not set the key.

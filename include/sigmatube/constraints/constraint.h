@@ -38,6 +38,7 @@
 
 #include "sigmatube/casefile/case_options.h"
 
+// Layer constraints/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::constraints {
 
 /// The spelling of an output name inside a clearance expression: '.' → '_'.

@@ -22,6 +22,7 @@
 #include "sigmatube/constraints/constraint.h"
 #include "sigmatube/constraints/violation_statistics.h"
 
+// Layer constraints/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::constraints {
 
 struct ConstraintMargin {

@@ -19,6 +19,7 @@
 
 #include <Eigen/Core>
 
+// Layer constraints/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::constraints {
 
 /// Φ⁻¹(1 − ε), computed from the upper tail so small ε keep their digits.
@@ -50,5 +51,9 @@ struct ReformulationDisagreement {
 std::vector<ReformulationDisagreement> find_reformulation_disagreements(
     const Eigen::VectorXd& times_in_seconds, const std::vector<std::uint8_t>& gaussian_ok,
     const std::vector<std::uint8_t>& cantelli_ok, const Eigen::VectorXd& sampled_probability, double epsilon);
+
+/// One line for a constraint's disagreements: the first one described, then
+/// (when there are several) how many of each kind. Empty when there is none.
+std::string reformulation_note(const std::vector<ReformulationDisagreement>& found);
 
 }  // namespace sigmatube::constraints

@@ -37,6 +37,7 @@
 
 #include "sigmatube/constraints/constraint.h"
 
+// Layer constraints/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::constraints {
 
 /// Results for one constraint.

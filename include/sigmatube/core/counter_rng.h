@@ -7,6 +7,7 @@
 #include <array>
 #include <cstdint>
 
+// Layer core/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube {
 
 class CounterRng {

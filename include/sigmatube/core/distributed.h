@@ -15,6 +15,7 @@
 #include <functional>
 #include <utility>
 
+// Layer core/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube {
 
 /// Initializes MPI (thread level "funneled": only the thread that made the

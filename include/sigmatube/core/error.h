@@ -8,6 +8,7 @@
 #include <stdexcept>
 #include <string>
 
+// Layer core/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube {
 
 /// Where in a user's file a value came from. `line` is 0 when unknown.

@@ -7,6 +7,7 @@
 #include <cstddef>
 #include <functional>
 
+// Layer core/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube {
 
 /// Number of worker threads to use: `requested` if > 0, else the hardware count.

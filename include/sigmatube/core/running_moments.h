@@ -10,6 +10,7 @@
 
 #include <Eigen/Core>
 
+// Layer core/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube {
 
 template <class Value>

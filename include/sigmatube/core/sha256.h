@@ -3,6 +3,7 @@
 // SHA-256 (FIPS 180-4), used to fingerprint the case file in result files.
 #include <string>
 
+// Layer core/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube {
 
 /// Lower-case hex digest of `data`.

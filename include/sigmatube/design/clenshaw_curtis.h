@@ -12,6 +12,7 @@
 // previous level's.
 #include "sigmatube/design/quadrature_rule.h"
 
+// Layer design/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::design {
 
 /// Points of the nested rule at level l ≥ 1.

@@ -11,6 +11,7 @@
 #include "sigmatube/design/quadrature_rule.h"
 #include "sigmatube/germ/family.h"
 
+// Layer design/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::design {
 
 /// Throws std::logic_error for n < 1, InputError for invalid family exponents,

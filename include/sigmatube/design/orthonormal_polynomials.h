@@ -18,6 +18,7 @@
 
 #include "sigmatube/germ/family.h"
 
+// Layer design/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::design {
 
 /// Monic recurrence coefficients α_0…α_{n−1}, β_0…β_{n−1} (β_0 = 1, the mass of

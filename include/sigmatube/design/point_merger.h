@@ -7,6 +7,7 @@
 
 #include <Eigen/Dense>
 
+// Layer design/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::design {
 
 /// Merges points given as per-dimension node values into canonical keys: two

@@ -4,6 +4,7 @@
 //   E[f(ξ)] ≈ Σ_j w_j f(x_j),  Σ_j w_j = 1.
 #include <Eigen/Dense>
 
+// Layer design/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::design {
 
 struct QuadratureRule {

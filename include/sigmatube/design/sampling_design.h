@@ -18,6 +18,7 @@
 
 #include "sigmatube/germ/family.h"
 
+// Layer design/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::design {
 
 /// [n_points, d] Sobol design in germ space.

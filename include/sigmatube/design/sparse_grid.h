@@ -20,6 +20,7 @@
 #include "sigmatube/design/quadrature_rule.h"
 #include "sigmatube/germ/family.h"
 
+// Layer design/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::design {
 
 /// One tensor rule U^{i_1} ⊗ … ⊗ U^{i_d} of the combination.

@@ -9,6 +9,7 @@
 
 #include "sigmatube/expansion/surrogate.h"
 
+// Layer expansion/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::expansion {
 
 struct LinearProjection {

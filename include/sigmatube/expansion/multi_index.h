@@ -11,6 +11,7 @@
 
 #include "sigmatube/expansion/surrogate.h"
 
+// Layer expansion/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::expansion {
 
 MultiIndexSet total_degree_set(int dimension, int degree);

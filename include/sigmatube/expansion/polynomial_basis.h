@@ -10,6 +10,7 @@
 #include "sigmatube/expansion/surrogate.h"
 #include "sigmatube/germ/family.h"
 
+// Layer expansion/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::expansion {
 
 /// Ψ[i, r] = ψ_{α_r}(points[i, :]), [N, P].

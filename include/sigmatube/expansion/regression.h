@@ -18,6 +18,7 @@
 #include "sigmatube/expansion/linear_projection.h"
 #include "sigmatube/germ/family.h"
 
+// Layer expansion/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::expansion {
 
 struct RegressionProjection : LinearProjection {

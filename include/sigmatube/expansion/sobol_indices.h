@@ -10,6 +10,7 @@
 
 #include "sigmatube/expansion/surrogate.h"
 
+// Layer expansion/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::expansion {
 
 /// [n_columns, d]: row c holds S_j of coefficient column c.

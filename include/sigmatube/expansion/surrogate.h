@@ -16,6 +16,7 @@
 #include "sigmatube/casefile/case_options.h"
 #include "sigmatube/germ/family.h"
 
+// Layer expansion/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::expansion {
 
 /// Row k = multi-index α_k (one degree per germ dimension). Row 0 is all zeros.
@@ -106,5 +107,26 @@ int planned_model_runs(const std::vector<germ::FamilySpec>& families, const case
 Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_times, int n_outputs,
                           const casefile::SurrogateOptions& options, const ModelEvaluator& evaluate,
                           SurrogateSummary* summary);
+
+/// The surrogate of a model without uncertain inputs: one coefficient per
+/// column, the nominal run ([n_times, n_outputs]).
+Surrogate constant_surrogate(const Eigen::MatrixXd& nominal_outputs);
+
+/// Surrogate outputs at germ points (rows) in the [N, n_times·n_outputs] layout of
+/// a model run, only `columns` evaluated (the others 0).
+void surrogate_outputs(const Surrogate& surrogate, const Eigen::MatrixXd& points, const std::vector<int>& columns,
+                       Eigen::MatrixXd& Y);
+
+/// The surrogate stage of an analysis and what it returns.
+struct SurrogateStage {
+  Surrogate surrogate;
+  SurrogateSummary summary;
+};
+
+/// build_surrogate over `families` for outputs shaped like the nominal run
+/// ([n_times, n_outputs]); with no family (no uncertain input), the constant
+/// surrogate of the nominal run and no model run. Throws as build_surrogate.
+SurrogateStage surrogate_stage(const std::vector<germ::FamilySpec>& families, const Eigen::MatrixXd& nominal_outputs,
+                               const casefile::SurrogateOptions& options, const ModelEvaluator& evaluate);
 
 }  // namespace sigmatube::expansion

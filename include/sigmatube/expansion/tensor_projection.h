@@ -12,6 +12,7 @@
 #include "sigmatube/expansion/linear_projection.h"
 #include "sigmatube/germ/family.h"
 
+// Layer expansion/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::expansion {
 
 /// Number of runs, (p + 1)^d, as a double so that huge designs do not overflow.

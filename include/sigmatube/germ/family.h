@@ -10,6 +10,7 @@
 // Polynomials are orthonormal under the probability measure: E[ψ_i ψ_j] = δ_ij.
 #include <string>
 
+// Layer germ/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::germ {
 
 enum class Family { hermite, legendre, jacobi, laguerre };

@@ -42,9 +42,11 @@
 #include <Eigen/Dense>
 
 #include "sigmatube/casefile/case_options.h"
+#include "sigmatube/core/counter_rng.h"
 #include "sigmatube/germ/family.h"
 #include "sigmatube/model/closed_loop.h"
 
+// Layer germ/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::germ {
 
 /// A truncated normal whose density over [low, high] varies by less than this
@@ -152,5 +154,13 @@ class Germ {
   int n_states_ = 0, n_inputs_ = 0, n_parameters_ = 0, n_times_ = 0;
   bool needs_disturbance_ = false;
 };
+
+/// Germ points (rows, [n, germ.dimension()]) for standard-normal points z
+/// (rows): row i = germ.from_standard_normal(z.row(i)).
+Eigen::MatrixXd germ_points(const Germ& germ, const Eigen::MatrixXd& z);
+
+/// n standard-normal points (rows, [n, d]) of samples first, …, first + n − 1:
+/// z(i, j) = rng.normal(first + i, j), independent of how the samples are split.
+Eigen::MatrixXd standard_normal_points(const CounterRng& rng, long long first, Eigen::Index n, int d);
 
 }  // namespace sigmatube::germ

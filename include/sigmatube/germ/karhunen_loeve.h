@@ -22,6 +22,7 @@
 
 #include "sigmatube/casefile/case_options.h"
 
+// Layer germ/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::germ {
 
 /// C(s, t) of the kernel; throws std::logic_error for std ≤ 0 or ℓ ≤ 0.

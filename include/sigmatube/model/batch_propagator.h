@@ -26,6 +26,7 @@
 #include "sigmatube/model/closed_loop.h"
 #include "sigmatube/model/lane_expression.h"
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 class BatchPropagator {

@@ -11,6 +11,7 @@
 
 #include "sigmatube/model/model.h"
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 /// Shared bookkeeping of the built-ins: fixed names, overridable parameters.

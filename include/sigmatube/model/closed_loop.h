@@ -17,6 +17,7 @@
 #include "sigmatube/casefile/case_options.h"
 #include "sigmatube/model/model.h"
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 /// Everything uncertain about one run. nominal() of a ClosedLoop gives the

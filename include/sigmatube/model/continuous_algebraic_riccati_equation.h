@@ -2,6 +2,7 @@
 #pragma once
 #include <Eigen/Dense>
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 /// The stabilizing solution X = Xᵀ ⪰ 0 of the continuous algebraic Riccati equation

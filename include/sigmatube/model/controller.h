@@ -13,6 +13,7 @@
 #include "sigmatube/model/model.h"
 #include "sigmatube/model/plan.h"
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 class Controller {

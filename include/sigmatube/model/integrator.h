@@ -23,6 +23,7 @@
 
 #include "sigmatube/casefile/case_options.h"
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 class OdeIntegrator {

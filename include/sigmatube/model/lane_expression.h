@@ -20,6 +20,7 @@
 #include <string>
 #include <vector>
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 class LaneExpression {

@@ -12,6 +12,7 @@
 #include "sigmatube/model/model.h"
 #include "sigmatube/model/plan.h"
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 /// K = R⁻¹BᵀP with P the stabilizing solution of the algebraic Riccati equation.

@@ -9,6 +9,7 @@
 
 #include <Eigen/Dense>
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 class Model {

@@ -5,6 +5,7 @@
 #include "sigmatube/casefile/case_options.h"
 #include "sigmatube/model/model.h"
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 /// The model a case's [model] table describes: a built-in when `builtin` is set

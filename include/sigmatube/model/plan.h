@@ -20,6 +20,7 @@
 #include "sigmatube/casefile/case_options.h"
 #include "sigmatube/model/model.h"
 
+// Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
 class Plan {

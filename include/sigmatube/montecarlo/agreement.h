@@ -33,6 +33,7 @@
 #include "sigmatube/constraints/violation_statistics.h"
 #include "sigmatube/montecarlo/monte_carlo.h"
 
+// Layer montecarlo/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::montecarlo {
 
 struct AgreementOptions {

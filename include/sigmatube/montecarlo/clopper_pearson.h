@@ -8,6 +8,7 @@
 // with B⁻¹(q; a, b) the inverse regularized incomplete beta function (Boost.Math
 // ibeta_inv). Each one-sided limit has coverage ≥ 1 − α/2 for every p.
 
+// Layer montecarlo/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::montecarlo {
 
 struct BinomialInterval {

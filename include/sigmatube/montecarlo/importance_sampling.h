@@ -35,6 +35,7 @@
 #include "sigmatube/constraints/constraint.h"
 #include "sigmatube/germ/family.h"
 
+// Layer montecarlo/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::montecarlo {
 
 /// Limit state in standard-normal space; g ≤ 0 is a violation.

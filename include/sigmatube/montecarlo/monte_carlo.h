@@ -37,6 +37,7 @@
 #include "sigmatube/germ/family.h"
 #include "sigmatube/montecarlo/clopper_pearson.h"
 
+// Layer montecarlo/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::montecarlo {
 
 /// One model run: fill outputs[t·n_out + o] (row-major by time) for germ point xi.

@@ -10,6 +10,7 @@
 
 #include <Eigen/Dense>
 
+// Layer result/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::result {
 
 inline constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();

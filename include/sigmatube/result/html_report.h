@@ -5,6 +5,7 @@
 
 #include "sigmatube/result/analysis_result.h"
 
+// Layer result/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::result {
 
 struct ReportOptions {

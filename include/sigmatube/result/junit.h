@@ -5,6 +5,7 @@
 #include <string>
 #include <vector>
 
+// Layer result/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::result {
 
 struct JUnitCase {

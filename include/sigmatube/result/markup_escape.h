@@ -3,6 +3,7 @@
 // Escaping for the text formats this library writes (XML/XHTML/SVG, JSON).
 #include <string>
 
+// Layer result/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::result {
 
 /// Escapes & < > " ' for XML text and attribute values, and drops control

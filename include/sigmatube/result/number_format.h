@@ -4,6 +4,7 @@
 // table, HTML report). One place, so the three agree.
 #include <string>
 
+// Layer result/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::result {
 
 /// The dash shown for a value that does not exist (NaN): "—" (U+2014).

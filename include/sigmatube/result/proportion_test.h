@@ -4,6 +4,7 @@
 // candidate sample: the noise allowance of the release gate (compare.h).
 #include <string>
 
+// Layer result/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::result {
 
 struct ProportionTest {

@@ -5,6 +5,7 @@
 
 #include "sigmatube/result/analysis_result.h"
 
+// Layer result/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::result {
 
 /// Throws InputError (key "-o") if `path` exists and `force` is false, or its

@@ -1,0 +1,52 @@
+// SPDX-License-Identifier: MIT
+#pragma once
+// The surrogate-sampling stage of an analysis: every constraint's violation
+// statistics (violation_statistics.h) from samples of the surrogate
+// (expansion/surrogate.h) at germ points drawn through the germ (germ/germ.h),
+// streamed in chunks so that memory stays bounded.
+#include <functional>
+#include <vector>
+
+#include <Eigen/Core>
+
+#include "sigmatube/constraints/constraint.h"
+#include "sigmatube/constraints/violation_statistics.h"
+#include "sigmatube/expansion/surrogate.h"
+#include "sigmatube/germ/germ.h"
+
+// Layer constraints/ (DEVELOPERS.md: the pipeline, folder by folder).
+namespace sigmatube::constraints {
+
+/// Columns t·n_out + o of every output the constraints read, at every report time.
+std::vector<int> constraint_columns(const std::vector<Constraint>& list, int n_times, int n_out);
+
+/// Surrogate samples per chunk: bounds memory at chunk × (T·n_out) doubles per thread.
+inline constexpr long long kSurrogateChunk = 2048;
+
+/// `samples` surrogate samples: sample i at the germ point of the standard-normal
+/// point CounterRng(seed ^ kSurrogateStream).normal(i, j). Bit-identical for any
+/// thread count. `progress` (may be empty) receives the samples done so far, from
+/// any thread. Empty constraint list: default ViolationResults, nothing sampled.
+ViolationResults sample_surrogate(const std::vector<Constraint>& list, const expansion::Surrogate& surrogate,
+                                  const germ::Germ& germ, const Eigen::VectorXd& times_in_seconds, long long samples,
+                                  unsigned long long seed, int threads,
+                                  const std::function<void(long long done)>& progress);
+
+/// The case's sampling: with `options.sampling` "precision" (and a germ of at most
+/// ScrambledSobol::max_dimension() dimensions) scrambled Sobol replicates until
+/// every probability meets the target, at most `cap` samples
+/// (stream_to_precision); otherwise exactly `cap` pseudo-random samples
+/// (sample_surrogate).
+struct SurrogateSampling {
+  ViolationResults results;
+  long long samples = 0;    // samples used
+  bool precision = false;   // drawn by "precision" sampling
+  bool target_met = true;
+};
+SurrogateSampling sample_surrogate_to_target(const std::vector<Constraint>& list, const expansion::Surrogate& surrogate,
+                                             const germ::Germ& germ, const Eigen::VectorXd& times_in_seconds,
+                                             const casefile::SurrogateOptions& options, long long cap,
+                                             unsigned long long seed, int threads,
+                                             const std::function<void(long long done)>& progress);
+
+}  // namespace sigmatube::constraints

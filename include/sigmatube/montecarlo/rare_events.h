@@ -1,0 +1,50 @@
+// SPDX-License-Identifier: MIT
+#pragma once
+// The rare-event stage of an analysis: a crude Monte Carlo of a few thousand
+// runs cannot resolve a bound ≤ 1e-4, so for such a constraint the design point
+// is found on the surrogate (find_most_probable_point, started from the closest
+// violating one of a screening sample) and the full model is importance-sampled
+// around it (importance_sample_constraint).
+#include <optional>
+#include <vector>
+
+#include <Eigen/Core>
+
+#include "sigmatube/constraints/constraint.h"
+#include "sigmatube/expansion/surrogate.h"
+#include "sigmatube/germ/germ.h"
+#include "sigmatube/montecarlo/importance_sampling.h"
+#include "sigmatube/montecarlo/monte_carlo.h"
+
+// Layer montecarlo/ (DEVELOPERS.md: the pipeline, folder by folder).
+namespace sigmatube::montecarlo {
+
+struct RareEventOptions {
+  double threshold = 1e-4;   // constraints with max_probability ≤ threshold get an estimate
+  long long samples = 4000;  // full-model importance-sampling runs per constraint
+  unsigned long long seed = 0;
+  double confidence = 0.95;
+  int threads = 0;
+};
+
+struct RareEventEstimate {
+  MostProbablePoint design_point;  // on the surrogate, in standard-normal germ space
+  ImportanceSamplingResult sampling;
+};
+
+/// The estimate for one constraint. `run_sample` runs the full model at a germ point.
+RareEventEstimate rare_event_estimate(const germ::Germ& germ, const expansion::Surrogate& surrogate,
+                                      const constraints::Constraint& constraint,
+                                      const Eigen::VectorXd& times_in_seconds, const RareEventOptions& options,
+                                      const RunSample& run_sample);
+
+/// One entry per constraint: the estimate where max_probability ≤ options.threshold,
+/// nullopt elsewhere.
+std::vector<std::optional<RareEventEstimate>> rare_events(const germ::Germ& germ,
+                                                          const expansion::Surrogate& surrogate,
+                                                          const std::vector<constraints::Constraint>& constraints,
+                                                          const Eigen::VectorXd& times_in_seconds,
+                                                          const RareEventOptions& options,
+                                                          const RunSample& run_sample);
+
+}  // namespace sigmatube::montecarlo

@@ -13,7 +13,7 @@ build="${BUILD_DIR:-$root/build-bench}"
 jobs="${JOBS:-2}"
 
 cmake -S "$root" -B "$build" -DCMAKE_BUILD_TYPE=Release -DSIGMATUBE_BUILD_BENCH=ON -DSIGMATUBE_BUILD_TESTS=OFF >/dev/null
-cmake --build "$build" -j "$jobs" --target sigmatube_bench sigmatube_micro_bench
+cmake --build "$build" -j "$jobs" --target sigmatube_bench sigmatube_micro_bench sigmatube_adaptive_bench
 
 echo "== machine =="
 echo "cores: $(nproc); CPU: $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | sed 's/^ //')"
@@ -24,3 +24,6 @@ echo "== side-by-side suite =="
 
 echo "== micro-benchmarks =="
 "$build/bench/sigmatube_micro_bench" --benchmark_min_time=0.2
+
+echo "== many inputs, few active: adaptive surrogates =="
+"$build/bench/sigmatube_adaptive_bench"

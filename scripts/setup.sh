@@ -14,7 +14,8 @@ jobs="$(nproc 2>/dev/null || echo 2)"
 
 packages=(cmake g++ make libeigen3-dev libboost-dev libhdf5-dev libcli11-dev libtomlplusplus-dev
           libmuparser-dev libgtest-dev libbenchmark-dev python3-scipy python3-h5py hdf5-tools
-          openmpi-bin libopenmpi-dev)
+          openmpi-bin libopenmpi-dev pybind11-dev python3-pybind11 python3-dev python3-numpy python3-pytest
+          chromium-headless-shell)
 missing=()
 for p in "${packages[@]}"; do
   dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")

@@ -6,6 +6,7 @@
 #include <string>
 #include <vector>
 
+#include "sigmatube/app/breakdown_stages.h"
 #include "sigmatube/app/model_runs.h"
 #include "sigmatube/app/progress.h"
 #include "sigmatube/constraints/assessment.h"
@@ -33,6 +34,7 @@ result::AnalysisResult base_result(const LoadedCase& loaded, const char* command
   result::AnalysisResult r;
   r.tool_version = SIGMATUBE_VERSION;
   r.case_sha256 = loaded.case_sha256;
+  r.inputs_sha256 = loaded.inputs_sha256;
   r.created_utc = utc_now();
   r.seed = loaded.options.montecarlo.seed;
   r.title = loaded.options.title;
@@ -40,9 +42,12 @@ result::AnalysisResult base_result(const LoadedCase& loaded, const char* command
   r.command = command;
   r.time = loaded.closed_loop->report_times();
   r.output_names = loaded.closed_loop->output_names();
+  r.output_units = loaded.closed_loop->output_units();
   const auto& cl = *loaded.closed_loop;
   r.nominal_outputs.resize(static_cast<Eigen::Index>(r.time.size()), cl.output_count());
   cl.run(cl.nominal(), r.nominal_outputs, -1);
+  // The deterministic tube needs no sampling: with the nominal run (app/breakdown_stages.h).
+  tube_stage(loaded, r);
   return r;
 }
 
@@ -126,32 +131,55 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
   // 3. Constraint statistics, reformulations and margins (constraints/assessment.h).
   result::add_constraints(r, constraint_list, sampled, constraints::assess_constraints(constraint_list, sampled, times));
 
+  // 3b. Quantile tubes and variance shares per uncertain input, on the same
+  // sampling stream (app/breakdown_stages.h).
+  quantile_stage(loaded, surrogate.surrogate, mc_options.seed ^ constraints::kSurrogateStream, samples, threads, r);
+  input_share_stage(loaded, surrogate.surrogate, surrogate.summary, mc_options.seed ^ constraints::kSurrogateStream,
+                    samples, mc_options.confidence, r);
+
   if (mc_options.runs > 0 && d > 0) {
     const montecarlo::RunSample run_sample = runner.run_sample();
 
     // 4. Monte Carlo cross-check with the full model (montecarlo/cross_check.h).
+    // Every full-model run is also compared with the deterministic tube.
+    TubeCheck tube_check(r);
+    montecarlo::MonteCarloRunOptions run_options = montecarlo_run_options(loaded, runner, r.output_names, threads);
+    run_options.run_rows = [&tube_check, run_rows = run_options.run_rows](long long begin, long long end,
+                                                                          const Eigen::MatrixXd& xi, double* outputs,
+                                                                          std::uint8_t* ok) {
+      run_rows(begin, end, xi, outputs, ok);
+      tube_check.observe(outputs, xi.rows(), ok);
+    };
     ProgressBar bar("Monte Carlo runs", static_cast<std::size_t>(mc_options.runs), options.progress);
+    montecarlo::AgreementOptions agreement;
+    agreement.false_alarm_level = mc_options.false_alarm_level;
+    agreement.relative_tolerance = mc_options.relative_tolerance;
+    agreement.output_names = r.output_names;
     const montecarlo::CrossCheck check = montecarlo::cross_check(
-        mc_options, germ.specs(), times, n_out, constraint_list, run_sample,
-        montecarlo_run_options(loaded, runner, r.output_names, threads), surrogate.surrogate, sampled,
-        [&](long long done, long long) { bar.update(static_cast<std::size_t>(done)); });
+        mc_options, germ.specs(), times, n_out, constraint_list, run_sample, run_options, surrogate.surrogate, sampled,
+        [&](long long done, long long) { bar.update(static_cast<std::size_t>(done)); }, agreement);
     bar.finish();
     result::add_cross_check(r, check, mc_options.seed);
+    r.montecarlo.false_alarm_level = mc_options.false_alarm_level;
+    r.montecarlo.relative_tolerance = mc_options.relative_tolerance;
+    tube_check.finish(r);
 
     // 5. Rare events: importance sampling of the full model around the design
     // point for bounds ≤ the threshold (montecarlo/rare_events.h).
     montecarlo::RareEventOptions rare;
     rare.threshold = options.importance_sampling_threshold;
-    rare.samples = options.importance_sampling_runs;
+    rare.samples = options.importance_sampling_runs > 0 ? options.importance_sampling_runs : mc_options.rare_event_runs;
+    rare.cov_target = mc_options.cov_target;
+    rare.skip = result::violation_shown(r);  // a rare-event estimate could only refine, never overrule
     rare.seed = mc_options.seed;
     rare.confidence = loaded.options.montecarlo.confidence;
     rare.threads = threads;
-    result::add_rare_events(r, montecarlo::rare_events(germ, surrogate.surrogate, constraint_list, times, rare, run_sample));
+    result::add_rare_events(r, montecarlo::rare_events(germ, surrogate.surrogate, constraint_list, times, rare, run_sample),
+                            rare.cov_target);
+    // 6. The bound verdicts from all the evidence (montecarlo/verdict.h).
+    result::add_verdicts(r, rare.threshold);
   }
 
-  // 6. Tube (not yet built): the next stage goes here, as a function in the layer
-  //    of its subject returning its own part of the result, entered into r by
-  //    one call of result/stage_results.h.
   return r;
 }
 

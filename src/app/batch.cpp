@@ -13,7 +13,9 @@
 
 #include "sigmatube/app/case_loader.h"
 #include "sigmatube/casefile/suite_reader.h"
+#include "sigmatube/app/work_estimate.h"
 #include "sigmatube/core/error.h"
+#include "sigmatube/core/output_policy.h"
 #include "sigmatube/result/junit.h"
 #include "sigmatube/result/json_summary.h"
 #include "sigmatube/result/markup_escape.h"
@@ -67,6 +69,15 @@ std::string one_line(std::string text) {
   return text;
 }
 
+// The suite and every case and plan file it names are inputs of the batch.
+void declare_inputs(OutputSet& outputs, const casefile::SuiteOptions& suite) {
+  outputs.input(suite.path, "SUITE");
+  for (const auto& c : suite.cases) {
+    outputs.input(c.path, "case " + c.name);
+    outputs.input(c.plan_path, "plan of case " + c.name);
+  }
+}
+
 CaseOutcome run_one(const casefile::SuiteOptions& suite, std::size_t index, const BatchOptions& options) {
   CaseOutcome out;
   const casefile::SuiteCase& entry = suite.cases[index];
@@ -75,13 +86,22 @@ CaseOutcome run_one(const casefile::SuiteOptions& suite, std::size_t index, cons
   out.result_path = (fs::path(options.directory) / (entry.name + ".h5")).string();
   const auto start = std::chrono::steady_clock::now();
   try {
-    // Before any computation, so that a refused output costs nothing.
-    result::check_output_path(out.result_path, options.force);
     const LoadedCase loaded = load_case(casefile::read_suite_case(suite, index));
     AnalysisOptions analysis = options.analysis;
     if (options.quiet) analysis.progress = false;
+    enforce_limits(loaded, estimate_work(loaded, analysis.samples, analysis.mc_runs), analysis.samples.has_value(),
+                   analysis.mc_runs.has_value());
+    // Before any computation, so that a refused output costs nothing: the
+    // result is none of the suite's inputs (core/output_policy.h).
+    OutputSet outputs(options.force);
+    declare_inputs(outputs, suite);
+    outputs.input(loaded.options.plan.path, "plan.file");
+    outputs.output(out.result_path, "-d");
+    outputs.check();
     out.analysis = analyze_case(loaded, analysis);
-    result::write_result_file(out.analysis, out.result_path, options.force);
+    outputs.stage(out.result_path,
+                  [&](const std::string& temporary) { result::write_result_to(out.analysis, temporary); });
+    outputs.commit();
     out.ran = true;
     out.exit_code = out.analysis.verdict_exit_code();
   } catch (const InputError& e) {
@@ -212,9 +232,13 @@ int run_batch(const std::string& suite_path, const BatchOptions& options) {
   fs::create_directories(options.directory, ec);
   if (ec || !fs::is_directory(options.directory))
     throw InputError(SourceLocation{"", 0, "-d"}, "cannot create the result folder " + options.directory);
-  // Side outputs are checked up front so that a long batch is not lost at the end.
-  if (!options.junit_path.empty()) result::check_output_path(options.junit_path, options.force);
-  if (!options.json_path.empty()) result::check_output_path(options.json_path, options.force);
+  // Side outputs are checked up front so that a long batch is not lost at the
+  // end: neither may be an input or the result of a case.
+  OutputSet side(options.force);
+  declare_inputs(side, suite);
+  for (const auto& c : suite.cases) side.input((fs::path(options.directory) / (c.name + ".h5")).string(), "result of case " + c.name);
+  side.output(options.junit_path, "--junit").output(options.json_path, "--json");
+  side.check();
 
   std::vector<CaseOutcome> outcomes;
   int total = 0;
@@ -236,9 +260,9 @@ int run_batch(const std::string& suite_path, const BatchOptions& options) {
   }
 
   if (!options.quiet) std::cout << summary_table(suite, outcomes, total) << std::flush;
-  if (!options.junit_path.empty()) result::write_text_file(junit(suite, outcomes), options.junit_path, options.force);
-  if (!options.json_path.empty())
-    result::write_text_file(json(suite, outcomes, total), options.json_path, options.force);
+  if (!options.junit_path.empty()) side.stage_text(options.junit_path, junit(suite, outcomes));
+  if (!options.json_path.empty()) side.stage_text(options.json_path, json(suite, outcomes, total));
+  side.commit();
   return total;
 }
 

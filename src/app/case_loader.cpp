@@ -1,11 +1,16 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/app/case_loader.h"
 
+#include <cstdio>
+#include <algorithm>
+#include <cmath>
+
 #include <fstream>
 #include <iomanip>
 #include <sstream>
 #include <utility>
 
+#include "sigmatube/app/work_estimate.h"
 #include "sigmatube/casefile/case_reader.h"
 #include "sigmatube/casefile/case_validation.h"
 #include "sigmatube/core/sha256.h"
@@ -33,15 +38,6 @@ const char* law_name(casefile::ControlLaw law) {
   return "?";
 }
 
-const char* method_name(casefile::SurrogateMethod method) {
-  switch (method) {
-    case casefile::SurrogateMethod::sparse_grid: return "sparse-grid";
-    case casefile::SurrogateMethod::tensor_grid: return "tensor-grid";
-    case casefile::SurrogateMethod::regression: return "regression";
-  }
-  return "?";
-}
-
 const char* distribution_name(casefile::DistributionKind kind) {
   using K = casefile::DistributionKind;
   switch (kind) {
@@ -64,13 +60,53 @@ std::string join(const std::vector<std::string>& names) {
   return out;
 }
 
+// A constraint window must lie within the plan (a small relative slack for
+// rounding), or `run` would find no report time in it.
+void check_windows(const LoadedCase& loaded) {
+  const double t0 = loaded.closed_loop->plan().start_time(), tf = loaded.closed_loop->plan().end_time();
+  const double slack = 1e-9 * std::max(1.0, std::abs(tf - t0));
+  for (const auto& c : loaded.options.constraints) {
+    if (!c.window_in_seconds) continue;
+    const auto [start, end] = *c.window_in_seconds;
+    if (start < t0 - slack || end > tf + slack) {
+      std::ostringstream message;
+      message.precision(6);
+      message << "window [" << start << ", " << end << "] s lies outside the plan, which runs from " << t0 << " to "
+              << tf << " s";
+      throw InputError(c.key_where.of("window", c.where), message.str());
+    }
+  }
+}
+
 }  // namespace
+
+std::string inputs_manifest(const casefile::CaseOptions& options) {
+  std::ostringstream m;
+  m << "sigmatube inputs 1\n";
+  m << "case " << sha256_hex(read_bytes(options.path)) << "\n";
+  if (!options.plan.path.empty()) {
+    std::ifstream in(options.plan.path, std::ios::binary);
+    if (!in) throw InputError(options.plan.where, "cannot open the plan file '" + options.plan.path + "'");
+    std::ostringstream bytes;
+    bytes << in.rdbuf();
+    m << "plan " << sha256_hex(bytes.str()) << "\n";
+  }
+  m << "montecarlo.runs " << options.montecarlo.runs << "\n";
+  m << "surrogate.samples " << options.surrogate.samples << "\n";
+  char value[40];
+  for (const auto& c : options.constraints) {
+    std::snprintf(value, sizeof value, "%.17g", c.max_probability);
+    m << "constraint." << c.name << ".max_probability " << value << "\n";
+  }
+  return m.str();
+}
 
 LoadedCase load_case(const std::string& path) { return load_case(casefile::read_case(path)); }
 
 LoadedCase load_case(casefile::CaseOptions options) {
   LoadedCase loaded;
   loaded.case_sha256 = sha256_hex(read_bytes(options.path));
+  loaded.inputs_sha256 = sha256_hex(inputs_manifest(options));
   loaded.options = std::move(options);
   auto model = std::shared_ptr<const model::Model>(model::make_model(loaded.options.model));
   loaded.model = model;
@@ -88,6 +124,8 @@ LoadedCase load_case(casefile::CaseOptions options) {
     loaded.constraints.emplace_back(options, loaded.closed_loop->output_names());
   // A design the options cannot support is a user error too: find out now.
   if (loaded.germ->dimension() > 0) (void)expansion::planned_model_runs(loaded.germ->specs(), loaded.options.surrogate);
+  check_windows(loaded);
+  enforce_limits(loaded, estimate_work(loaded));
   return loaded;
 }
 
@@ -141,16 +179,18 @@ std::string describe_case(const LoadedCase& loaded) {
     if (c.window_in_seconds) out << ", window " << c.window_in_seconds->first << " … " << c.window_in_seconds->second << " s";
     out << ")\n";
   }
-  out << "surrogate   " << method_name(o.surrogate.method);
+  const bool refines = o.surrogate.adaptive || expansion::is_dimension_adaptive(o.surrogate.method);
+  out << "surrogate   " << expansion::method_name(o.surrogate.method);
   if (o.surrogate.method == casefile::SurrogateMethod::sparse_grid) out << ", level " << o.surrogate.level;
-  else out << ", degree " << o.surrogate.degree;
-  if (o.surrogate.adaptive) out << " (adaptive to tolerance " << o.surrogate.tolerance << ", at most "
-                                << o.surrogate.max_model_runs << " runs)";
+  else if (!expansion::is_dimension_adaptive(o.surrogate.method)) out << ", degree " << o.surrogate.degree;
+  if (refines) out << " (adaptive to tolerance " << o.surrogate.tolerance << ", at most "
+                   << o.surrogate.max_model_runs << " runs)";
   out << "\n";
   const int runs = g.dimension() > 0 ? expansion::planned_model_runs(g.specs(), o.surrogate) : 1;
   out << "model runs  " << runs << " for the surrogate design"
-      << (o.surrogate.adaptive ? " (first step; adaptive refinement may add more)" : "") << ", "
+      << (refines ? " (first step; adaptive refinement may add more)" : "") << ", "
       << o.montecarlo.runs << " for the Monte Carlo cross-check\n";
+  out << describe_work(estimate_work(loaded));
   return out.str();
 }
 

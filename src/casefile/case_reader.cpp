@@ -10,6 +10,7 @@
 #include <Eigen/Dense>
 
 #include "sigmatube/casefile/nearest_name.h"
+#include "sigmatube/core/output_policy.h"
 #include "toml_table.h"
 
 namespace sigmatube::casefile {
@@ -30,13 +31,6 @@ std::vector<std::string> concat(std::vector<std::string> a, const std::vector<st
   return a;
 }
 
-// Names used in expressions must be identifiers the expression parser accepts.
-bool is_identifier(const std::string& name) {
-  if (name.empty()) return false;
-  auto alpha = [](char c) { return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || c == '_'; };
-  if (!alpha(name[0])) return false;
-  return std::all_of(name.begin(), name.end(), [&](char c) { return alpha(c) || (c >= '0' && c <= '9'); });
-}
 
 // Uncertain and constraint names become HDF5 group names and suite override keys, so
 // they use the characters of a TOML bare key only.
@@ -69,9 +63,24 @@ void require_unique(const TomlTable& t, const std::string& key, const std::vecto
       if (names[i] == names[j]) t.fail(key, "name '" + names[i] + "' appears twice");
 }
 
+// `written` (the value of `key`) resolved against the case file's folder unless
+// absolute; an error at `key` when it does not exist or cannot be read
+// (core/output_policy.h: input_file_problem).
+std::string existing_file_beside_case(const TomlTable& t, const std::string& key, const std::string& written,
+                                      const std::string& case_path, const std::string& what) {
+  namespace fs = std::filesystem;
+  fs::path file(written);
+  if (file.is_relative()) file = fs::path(case_path).parent_path() / file;
+  const std::string resolved = file.lexically_normal().string();
+  const std::string problem = input_file_problem(file.string());
+  if (problem == "no such file") t.fail(key, what + " '" + written + "' not found (looked for '" + resolved + "')");
+  if (!problem.empty()) t.fail(key, what + " '" + written + "' (" + resolved + ") " + problem);
+  return resolved;
+}
+
 // ---------------------------------------------------------------- [model]
 
-const std::vector<std::string> kModelKeys = {"builtin", "states", "inputs", "parameters", "rhs", "outputs"};
+const std::vector<std::string> kModelKeys = {"builtin", "plugin", "states", "inputs", "parameters", "rhs", "outputs", "units"};
 
 std::vector<NamedValue> read_named_values(const TomlTable& table, const std::string& key) {
   std::vector<NamedValue> out;
@@ -84,13 +93,31 @@ std::vector<NamedValue> read_named_values(const TomlTable& table, const std::str
   return out;
 }
 
+// An expression within kMaxExpressionLength characters and kMaxExpressionDepth
+// nested parentheses, checked before it reaches the compiler.
+void require_expression_size(const TomlTable& t, const std::string& key, const std::string& text) {
+  if (text.size() > kMaxExpressionLength)
+    t.fail(key, "expression of " + std::to_string(text.size()) + " characters exceeds the limit of " +
+                    std::to_string(kMaxExpressionLength));
+  int depth = 0, deepest = 0;
+  for (char c : text) {
+    if (c == '(') deepest = std::max(deepest, ++depth);
+    else if (c == ')') --depth;
+  }
+  if (deepest > kMaxExpressionDepth)
+    t.fail(key, "expression nests " + std::to_string(deepest) + " parentheses deep, the limit is " +
+                    std::to_string(kMaxExpressionDepth));
+}
+
 std::vector<NamedExpression> read_named_expressions(const TomlTable& table, const std::string& key) {
   std::vector<NamedExpression> out;
   auto sub = table.table(key);
   if (!sub) return out;
   for (const auto& [name, node] : sub->entries_in_file_order()) {
     if (!is_identifier(name)) sub->fail(name, "'" + name + "' is not a valid name (letters, digits and _, not starting with a digit)");
-    out.push_back({name, sub->string(name), sub->where(name)});
+    const std::string text = sub->string(name);
+    require_expression_size(*sub, name, text);
+    out.push_back({name, text, sub->where(name)});
   }
   return out;
 }
@@ -104,16 +131,26 @@ std::vector<std::string> read_identifiers(const TomlTable& table, const std::str
   return names;
 }
 
-ModelOptions read_model(const TomlTable& t) {
+ModelOptions read_model(const TomlTable& t, const std::string& case_path) {
   ModelOptions model;
   model.where = t.where();
   model.key_where = t.key_locations();
-  if (t.has("builtin")) {
+  // Names are checked against the model's states, inputs and outputs when the case is loaded.
+  model.units = read_named_expressions(t, "units");
+  if (t.has("plugin")) {
+    // A shared library with the C interface of sigmatube/model_plugin.h; its
+    // names and counts are checked when it is loaded (model/plugin_model.h).
+    t.check_keys_for_kind({"plugin", "parameters", "outputs", "units"}, kModelKeys, "a model plugin");
+    model.plugin = t.string("plugin");
+    if (model.plugin.empty()) t.fail("plugin", "must name a shared library");
+    model.plugin_path = existing_file_beside_case(t, "plugin", model.plugin, case_path, "model plugin");
+    model.parameters = read_named_values(t, "parameters");
+  } else if (t.has("builtin")) {
     model.builtin = t.string("builtin");
     // A built-in takes its parameters by name directly in [model] (or in a
     // parameters table); the names are checked against the model later.
     for (const auto& [key, node] : t.entries_in_file_order()) {
-      if (key == "builtin" || key == "parameters" || key == "outputs") continue;
+      if (key == "builtin" || key == "parameters" || key == "outputs" || key == "units") continue;
       if (key == "states" || key == "inputs" || key == "rhs")
         t.fail(key, "key '" + key + "' does not belong to a built-in model (it takes: builtin, outputs, parameters and "
                     "its parameters by name)");
@@ -135,7 +172,7 @@ ModelOptions read_model(const TomlTable& t) {
   } else {
     t.check_keys(kModelKeys, "key");
     if (!t.has("states"))
-      t.fail("builtin", "[model] needs either 'builtin' or an expression model ('states' and 'rhs')");
+      t.fail("builtin", "[model] needs 'builtin', 'plugin' or an expression model ('states' and 'rhs')");
     model.states = read_identifiers(t, "states");
     if (t.has("inputs")) model.inputs = read_identifiers(t, "inputs");
     model.parameters = read_named_values(t, "parameters");
@@ -180,9 +217,10 @@ PlanOptions read_plan(const TomlTable& t, const std::string& case_path) {
   fs::path file(plan.file);
   if (file.is_relative()) file = fs::path(case_path).parent_path() / file;
   plan.path = file.lexically_normal().string();
-  std::error_code ec;
-  if (!fs::is_regular_file(file, ec))
+  const std::string problem = input_file_problem(file.string());
+  if (problem == "no such file")
     t.fail("file", "plan file '" + plan.file + "' not found (looked for '" + plan.path + "')");
+  if (!problem.empty()) t.fail("file", "plan file '" + plan.file + "' (" + plan.path + ") " + problem);
   return plan;
 }
 
@@ -558,6 +596,7 @@ ConstraintOptions read_constraint(const TomlTable& t) {
       break;
     case ConstraintKind::expression:
       c.clearance = t.string("clearance");
+      require_expression_size(t, "clearance", c.clearance);
       break;
   }
   return c;
@@ -575,7 +614,9 @@ SurrogateOptions read_surrogate(const TomlTable& t) {
   s.method = t.choice<SurrogateMethod>("method",
                                        {{"sparse-grid", SurrogateMethod::sparse_grid},
                                         {"tensor-grid", SurrogateMethod::tensor_grid},
-                                        {"regression", SurrogateMethod::regression}},
+                                        {"regression", SurrogateMethod::regression},
+                                        {"adaptive-sparse-grid", SurrogateMethod::adaptive_sparse_grid},
+                                        {"sparse-regression", SurrogateMethod::sparse_regression}},
                                        s.method, "method");
   const long long degree = t.integer_or("degree", s.degree);
   if (degree < 0 || degree > 1000) t.fail("degree", "must be in [0, 1000] (got " + std::to_string(degree) + ")");
@@ -616,7 +657,8 @@ MonteCarloOptions read_montecarlo(const TomlTable& t) {
   MonteCarloOptions m;
   m.where = t.where();
   m.key_where = t.key_locations();
-  t.check_keys({"runs", "seed", "confidence"}, "key");
+  t.check_keys({"runs", "seed", "confidence", "false_alarm_level", "relative_tolerance", "cov_target", "rare_event_runs"},
+               "key");
   m.runs = t.integer_or("runs", m.runs);
   if (m.runs < 0) t.fail("runs", "must be ≥ 0 (0 disables the cross-check; got " + std::to_string(m.runs) + ")");
   if (t.has("seed")) {
@@ -626,7 +668,52 @@ MonteCarloOptions read_montecarlo(const TomlTable& t) {
   }
   m.confidence = t.number_or("confidence", m.confidence);
   require_open_unit(t, "confidence", m.confidence);
+  m.false_alarm_level = t.number_or("false_alarm_level", m.false_alarm_level);
+  require_open_unit(t, "false_alarm_level", m.false_alarm_level);
+  m.relative_tolerance = t.number_or("relative_tolerance", m.relative_tolerance);
+  require_positive(t, "relative_tolerance", m.relative_tolerance);
+  m.cov_target = t.number_or("cov_target", m.cov_target);
+  require_open_unit(t, "cov_target", m.cov_target);
+  m.rare_event_runs = t.integer_or("rare_event_runs", m.rare_event_runs);
+  if (m.rare_event_runs < 100)
+    t.fail("rare_event_runs", "must be ≥ 100 (got " + std::to_string(m.rare_event_runs) + ")");
   return m;
+}
+
+TubeOptions read_tube(const TomlTable& t) {
+  TubeOptions o;
+  o.where = t.where();
+  o.key_where = t.key_locations();
+  t.check_keys({"position", "sigma"}, "key");
+  if (!t.has("position")) t.missing("position");
+  o.position = t.strings("position");
+  require_unique(t, "position", o.position);
+  o.sigma = t.number_or("sigma", o.sigma);
+  require_positive(t, "sigma", o.sigma);
+  return o;
+}
+
+LimitOptions read_limits(const TomlTable& t) {
+  LimitOptions l;
+  l.where = t.where();
+  l.key_where = t.key_locations();
+  t.check_keys({"max_samples", "max_sample_values", "max_runs", "max_report_times", "max_steps", "max_memory_gib"},
+               "key");
+  const auto positive_integer = [&](const std::string& key, long long& value) {
+    value = t.integer_or(key, value);
+    if (value < 1) t.fail(key, "must be ≥ 1 (got " + std::to_string(value) + ")");
+  };
+  const auto positive_number = [&](const std::string& key, double& value) {
+    value = t.number_or(key, value);
+    require_positive(t, key, value);
+  };
+  positive_integer("max_samples", l.max_samples);
+  positive_number("max_sample_values", l.max_sample_values);
+  positive_integer("max_runs", l.max_runs);
+  positive_integer("max_report_times", l.max_report_times);
+  positive_number("max_steps", l.max_steps);
+  positive_number("max_memory_gib", l.max_memory_gib);
+  return l;
 }
 
 template <class Entry>
@@ -645,7 +732,7 @@ CaseOptions read_case(const std::string& path) {
   const toml::table root_table = detail::parse_toml_file(path, "case file");
   const TomlTable root(path, root_table, "", 0);
   root.check_keys({"title", "model", "plan", "control", "simulation", "uncertain", "constraint", "surrogate",
-                   "montecarlo"},
+                   "montecarlo", "tube", "limits"},
                   "top-level key or table");
   CaseOptions options;
   options.path = path;
@@ -656,7 +743,7 @@ CaseOptions read_case(const std::string& path) {
 
   auto model = root.table("model");
   if (!model) throw InputError(SourceLocation{path, 0, "model"}, "missing required table [model]");
-  options.model = read_model(*model);
+  options.model = read_model(*model, path);
 
   auto plan = root.table("plan");
   if (!plan) throw InputError(SourceLocation{path, 0, "plan"}, "missing required table [plan]");
@@ -689,6 +776,9 @@ CaseOptions read_case(const std::string& path) {
   else options.surrogate.where = {path, 0, "surrogate"};
   if (auto montecarlo = root.table("montecarlo")) options.montecarlo = read_montecarlo(*montecarlo);
   else options.montecarlo.where = {path, 0, "montecarlo"};
+  if (auto tube = root.table("tube")) options.tube = read_tube(*tube);
+  if (auto limits = root.table("limits")) options.limits = read_limits(*limits);
+  else options.limits.where = {path, 0, "limits"};
   return options;
 }
 

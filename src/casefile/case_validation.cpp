@@ -60,6 +60,10 @@ void validate_against_model(const CaseOptions& options, const std::vector<std::s
     if (c.type == ConstraintKind::input_limit) require_name(c.input, inputs, "input", c.key_where.of("input", c.where));
   }
 
+  if (options.tube)
+    for (const std::string& name : options.tube->position)
+      require_name(name, states, "state", options.tube->key_where.of("position", options.tube->where));
+
   const ControlOptions& control = options.control;
   for (const InputLimit& limit : control.limits) require_name(limit.input, inputs, "input", limit.where);
   if (control.law == ControlLaw::lqr) {

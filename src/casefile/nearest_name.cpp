@@ -66,4 +66,11 @@ std::string suggestion_or_list(const std::string& word, const std::vector<std::s
   return close.empty() ? " (known: " + join_names(candidates) + ")" : close;
 }
 
+bool is_identifier(std::string_view name) {
+  if (name.empty()) return false;
+  auto alpha = [](char c) { return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || c == '_'; };
+  if (!alpha(name[0])) return false;
+  return std::all_of(name.begin(), name.end(), [&](char c) { return alpha(c) || (c >= '0' && c <= '9'); });
+}
+
 }  // namespace sigmatube::casefile

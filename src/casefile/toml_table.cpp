@@ -7,13 +7,13 @@
 #include <sstream>
 
 #include "sigmatube/casefile/nearest_name.h"
+#include "sigmatube/core/output_policy.h"
 
 namespace sigmatube::casefile::detail {
 
 toml::table parse_toml_file(const std::string& path, const char* what) {
-  std::error_code ec;
-  if (!std::filesystem::is_regular_file(path, ec))
-    throw InputError(SourceLocation{path, 0, ""}, std::string("cannot open ") + what + ": no such file");
+  const std::string problem = input_file_problem(path);
+  if (!problem.empty()) throw InputError(SourceLocation{path, 0, ""}, std::string("cannot open ") + what + ": " + problem);
   try {
     return toml::parse_file(path);
   } catch (const toml::parse_error& error) {

@@ -8,6 +8,8 @@
 #include <cstdio>
 #include <cstdlib>
 #include <exception>
+#include <filesystem>
+#include <limits>
 #include <fstream>
 #include <iostream>
 #include <optional>
@@ -18,8 +20,12 @@
 #include "sigmatube/app/batch.h"
 #include "sigmatube/app/case_loader.h"
 #include "sigmatube/core/distributed.h"
+#include "sigmatube/app/work_estimate.h"
 #include "sigmatube/core/error.h"
+#include "sigmatube/core/option_values.h"
+#include "sigmatube/core/output_policy.h"
 #include "sigmatube/result/compare.h"
+#include "sigmatube/result/csv_export.h"
 #include "sigmatube/result/html_report.h"
 #include "sigmatube/result/json_summary.h"
 #include "sigmatube/result/result_file.h"
@@ -32,34 +38,66 @@ using namespace sigmatube;
 constexpr int kExitBadInput = 2;
 constexpr int kExitNumerical = 4;
 
+// Numeric options are taken as text and validated like case keys
+// (core/option_values.h): no wrap-around, no NaN, a readable range.
+constexpr long long kMaxThreads = 4096;
+constexpr long long kMaxSeed = std::numeric_limits<long long>::max();  // as [montecarlo].seed, a TOML integer
+constexpr long long kMaxCount = 1'000'000'000'000LL;                   // further bounded by [limits]
+
 struct Common {
-  int threads = 0;
-  std::optional<unsigned long long> seed;
-  std::optional<long long> mc_runs;
+  std::string threads, seed, mc_runs;
   bool force = false;
   bool quiet = false;
   std::string json;
 };
 
 void add_common(CLI::App* command, Common& common, bool with_analysis) {
-  command->add_option("--threads", common.threads, "worker threads (0 = all cores)")->check(CLI::NonNegativeNumber);
+  command->add_option("--threads", common.threads, "worker threads (0 = all cores)");
   if (with_analysis) {
     command->add_option("--seed", common.seed, "Monte Carlo seed (overrides [montecarlo].seed)");
-    command->add_option("--mc-runs", common.mc_runs, "Monte Carlo runs (0 disables the cross-check)")
-        ->check(CLI::NonNegativeNumber);
+    command->add_option("--mc-runs", common.mc_runs, "Monte Carlo runs (0 disables the cross-check)");
   }
-  command->add_flag("--force", common.force, "overwrite existing output files");
+  command->add_flag("--force", common.force, "overwrite existing output files (never an input of the command)");
   command->add_flag("--quiet", common.quiet, "print nothing but errors");
   command->add_option("--json", common.json, "also write a machine-readable summary to FILE");
 }
 
+std::optional<long long> integer_option(const std::string& text, const std::string& option, long long low,
+                                        long long high) {
+  if (text.empty()) return std::nullopt;
+  return parse_integer_option(text, option, low, high);
+}
+
 app::AnalysisOptions analysis_options(const Common& common) {
   app::AnalysisOptions options;
-  options.threads = common.threads;
-  options.seed = common.seed;
-  options.mc_runs = common.mc_runs;
+  options.threads = static_cast<int>(integer_option(common.threads, "--threads", 0, kMaxThreads).value_or(0));
+  if (const auto seed = integer_option(common.seed, "--seed", 0, kMaxSeed))
+    options.seed = static_cast<unsigned long long>(*seed);
+  options.mc_runs = integer_option(common.mc_runs, "--mc-runs", 0, kMaxCount);
   options.progress = !common.quiet;
   return options;
+}
+
+// The nominal outputs as CSV (simulate --csv).
+std::string nominal_csv(const result::AnalysisResult& nominal) {
+  std::ostringstream csv;
+  csv << "t";
+  for (const auto& name : nominal.output_names) csv << ',' << name;
+  csv << '\n';
+  csv.precision(17);
+  for (std::size_t k = 0; k < nominal.time.size(); ++k) {
+    csv << nominal.time[k];
+    for (Eigen::Index j = 0; j < nominal.nominal_outputs.cols(); ++j)
+      csv << ',' << nominal.nominal_outputs(static_cast<Eigen::Index>(k), j);
+    csv << '\n';
+  }
+  return csv.str();
+}
+
+// Notes stale temporaries (of processes no longer running) beside `path` on stderr.
+void note_stale_temporaries(const std::string& path) {
+  const std::filesystem::path p(path);
+  std::cerr << stale_temporaries_note(p.has_parent_path() ? p.parent_path().string() : ".");
 }
 
 void say(const Common& common, const std::string& text) {
@@ -90,8 +128,7 @@ int main(int argc, char** argv) {
   Common common;
   std::string case_path, output, csv_path, base_path, candidate_path, suite_path, directory, junit, budget;
   std::string plane_x, plane_y;
-  std::optional<long long> samples;
-  double max_increase = -1.0, significance = -1.0;
+  std::string samples, max_increase, significance;
 
   auto* check = cli.add_subcommand("check", "Validate a case and say what it will compute; computes nothing.");
   check->add_option("CASE", case_path, "case file (TOML)")->required();
@@ -106,15 +143,14 @@ int main(int argc, char** argv) {
   auto* run = cli.add_subcommand("run", "The whole analysis: surrogate, constraints, margins, Monte Carlo cross-check.");
   run->add_option("CASE", case_path, "case file (TOML)")->required();
   run->add_option("-o,--output", output, "result file (HDF5)")->required();
-  run->add_option("--samples", samples, "surrogate samples for probabilities (overrides [surrogate].samples)")
-      ->check(CLI::PositiveNumber);
+  run->add_option("--samples", samples, "surrogate samples for probabilities (overrides [surrogate].samples)");
   add_common(run, common, true);
   run->footer(run_help_footer());
 
   auto* show = cli.add_subcommand("show", "Print the summary of a result file.");
   show->add_option("RESULT", case_path, "result file (HDF5)")->required();
   show->add_option("--json", common.json, "also write a machine-readable summary to FILE");
-  show->add_flag("--force", common.force, "overwrite existing output files");
+  show->add_flag("--force", common.force, "overwrite existing output files (never an input of the command)");
 
   auto* compare = cli.add_subcommand("compare", "Release gate: risk and margin changes from BASE to CAND, pass or fail.");
   compare->add_option("BASE", base_path, "baseline result file")->required();
@@ -129,8 +165,7 @@ int main(int argc, char** argv) {
   batch->add_option("SUITE", suite_path, "suite file (TOML)")->required();
   batch->add_option("-d,--directory", directory, "folder for the result files")->required();
   batch->add_option("--junit", junit, "write JUnit XML to FILE");
-  batch->add_option("--samples", samples, "surrogate samples for probabilities (overrides the suite and cases)")
-      ->check(CLI::PositiveNumber);
+  batch->add_option("--samples", samples, "surrogate samples for probabilities (overrides the suite and cases)");
   add_common(batch, common, true);
 
   auto* report = cli.add_subcommand("report", "Write a self-contained HTML page with plots of a result.");
@@ -138,7 +173,13 @@ int main(int argc, char** argv) {
   report->add_option("-o,--output", output, "HTML file")->required();
   report->add_option("--plane", plane_x, "output on the horizontal axis of the path plot (e.g. y)");
   report->add_option("--plane-y", plane_y, "output on the vertical axis of the path plot (e.g. x)");
-  report->add_flag("--force", common.force, "overwrite existing output files");
+  report->add_flag("--force", common.force, "overwrite existing output files (never an input of the command)");
+
+  auto* export_csv = cli.add_subcommand("export", "Write the time series of a result as CSV files into a folder.");
+  export_csv->add_option("RESULT", case_path, "result file (HDF5)")->required();
+  export_csv->add_option("-d,--directory", directory, "folder for the CSV files (created if missing)")->required();
+  export_csv->add_flag("--force", common.force, "overwrite existing output files");
+  export_csv->add_flag("--quiet", common.quiet, "print nothing but errors");
 
   try {
     cli.parse(argc, argv);
@@ -159,77 +200,90 @@ int main(int argc, char** argv) {
     if (!leader) return 0;
     use_single_process();
   }
+  // Unfinished outputs of this process are removed on SIGINT/SIGTERM (exit 130/143).
+  install_interrupt_cleanup();
   try {
     if (check->parsed()) {
       const app::LoadedCase loaded = app::load_case(case_path);
       say(common, app::describe_case(loaded));
+      note_stale_temporaries(case_path);
       return 0;
     }
     if (simulate->parsed()) {
-      result::check_output_path(output, common.force);
-      if (!csv_path.empty()) result::check_output_path(csv_path, common.force);
-      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      (void)analysis_options(common);
       const app::LoadedCase loaded = app::load_case(case_path);
+      OutputSet outputs(common.force);
+      outputs.input(case_path, "CASE").input(loaded.options.plan.path, "plan.file");
+      outputs.output(output, "-o").output(csv_path, "--csv").output(common.json, "--json");
+      outputs.check();
       const result::AnalysisResult nominal = app::simulate_case(loaded);
-      result::write_result_file(nominal, output, common.force);
-      if (!csv_path.empty()) {
-        std::ostringstream csv;
-        csv << "t";
-        for (const auto& name : nominal.output_names) csv << ',' << name;
-        csv << '\n';
-        csv.precision(17);
-        for (std::size_t k = 0; k < nominal.time.size(); ++k) {
-          csv << nominal.time[k];
-          for (Eigen::Index j = 0; j < nominal.nominal_outputs.cols(); ++j)
-            csv << ',' << nominal.nominal_outputs(static_cast<Eigen::Index>(k), j);
-          csv << '\n';
-        }
-        result::write_text_file(csv.str(), csv_path, common.force);
-      }
-      if (!common.json.empty()) result::write_text_file(result::json_summary(nominal), common.json, common.force);
+      outputs.stage(output, [&](const std::string& temporary) { result::write_result_to(nominal, temporary); });
+      if (!csv_path.empty()) outputs.stage_text(csv_path, nominal_csv(nominal));
+      if (!common.json.empty()) outputs.stage_text(common.json, result::json_summary(nominal));
+      outputs.commit();
       say(common, result::summary_text(nominal));
       say(common, "wrote " + output + "\n");
       return 0;
     }
     if (run->parsed()) {
-      result::check_output_path(output, common.force);
-      if (!common.json.empty()) result::check_output_path(common.json, common.force);
-      const app::LoadedCase loaded = app::load_case(case_path);
       app::AnalysisOptions options = analysis_options(common);
-      options.samples = samples;
+      options.samples = integer_option(samples, "--samples", 1, kMaxCount);
+      const app::LoadedCase loaded = app::load_case(case_path);
+      app::enforce_limits(loaded, app::estimate_work(loaded, options.samples, options.mc_runs),
+                          options.samples.has_value(), options.mc_runs.has_value());
+      OutputSet outputs(common.force);
+      outputs.input(case_path, "CASE").input(loaded.options.plan.path, "plan.file");
+      outputs.output(output, "-o").output(common.json, "--json");
+      if (leader) outputs.check();
       const result::AnalysisResult analysis = app::analyze_case(loaded, options);
       if (!leader) return analysis.verdict_exit_code();
-      result::write_result_file(analysis, output, common.force);
-      if (!common.json.empty()) result::write_text_file(result::json_summary(analysis), common.json, common.force);
+      outputs.stage(output, [&](const std::string& temporary) { result::write_result_to(analysis, temporary); });
+      if (!common.json.empty()) outputs.stage_text(common.json, result::json_summary(analysis));
+      outputs.commit();
       say(common, result::summary_text(analysis));
       say(common, "wrote " + output + "\n");
       return analysis.verdict_exit_code();
     }
     if (show->parsed()) {
-      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      OutputSet outputs(common.force);
+      outputs.input(case_path, "RESULT").output(common.json, "--json");
+      outputs.check();
       const result::AnalysisResult stored = result::read_result_file(case_path);
+      note_stale_temporaries(case_path);
+      if (!common.json.empty()) {
+        outputs.stage_text(common.json, result::json_summary(stored));
+        outputs.commit();
+      }
       std::cout << result::summary_text(stored);
-      if (!common.json.empty()) result::write_text_file(result::json_summary(stored), common.json, common.force);
       return 0;
     }
     if (compare->parsed()) {
-      if (!junit.empty()) result::check_output_path(junit, common.force);
-      if (!common.json.empty()) result::check_output_path(common.json, common.force);
+      OutputSet outputs(common.force);
+      outputs.input(base_path, "BASE").input(candidate_path, "CAND").input(budget, "--budget");
+      outputs.output(junit, "--junit").output(common.json, "--json");
+      outputs.check();
       result::CompareOptions options = budget.empty() ? result::CompareOptions{} : result::read_budget(budget);
-      if (max_increase >= 0) options.max_absolute_increase = max_increase;
-      if (significance > 0) options.significance = significance;
+      if (!max_increase.empty())
+        options.max_absolute_increase = parse_real_option(max_increase, "--max-increase", 0, 1, false, false);
+      if (!significance.empty())
+        options.significance = parse_real_option(significance, "--significance", 0, 1, true, true);
       const result::AnalysisResult base = result::read_result_file(base_path);
       const result::AnalysisResult candidate = result::read_result_file(candidate_path);
+      for (const auto& [path, side] : {std::pair{&base_path, &base}, std::pair{&candidate_path, &candidate}})
+        if (side->command == "simulate")
+          throw InputError(SourceLocation{*path, 0, ""},
+                           "is a result of `simulate` (nominal run only); compare needs results of `run`");
       const result::CompareReport gate = result::compare_results(base, candidate, options);
+      if (!junit.empty()) outputs.stage_text(junit, result::compare_junit(gate, "sigmatube.compare"));
+      if (!common.json.empty()) outputs.stage_text(common.json, result::compare_json(gate));
+      outputs.commit();
       say(common, result::compare_text(gate));
-      if (!junit.empty()) result::write_text_file(result::compare_junit(gate, "sigmatube.compare"), junit, common.force);
-      if (!common.json.empty()) result::write_text_file(result::compare_json(gate), common.json, common.force);
       return gate.regression ? 1 : 0;
     }
     if (batch->parsed()) {
       app::BatchOptions options;
       options.analysis = analysis_options(common);
-      options.analysis.samples = samples;
+      options.analysis.samples = integer_option(samples, "--samples", 1, kMaxCount);
       options.directory = directory;
       options.force = common.force;
       options.junit_path = junit;
@@ -238,13 +292,22 @@ int main(int argc, char** argv) {
       return app::run_batch(suite_path, options);
     }
     if (report->parsed()) {
-      result::check_output_path(output, common.force);
+      OutputSet outputs(common.force);
+      outputs.input(case_path, "RESULT").output(output, "-o");
+      outputs.check();
       const result::AnalysisResult stored = result::read_result_file(case_path);
       result::ReportOptions options;
       options.plane_x = plane_x;
       options.plane_y = plane_y;
-      result::write_text_file(result::html_report(stored, options), output, common.force);
+      outputs.stage_text(output, result::html_report(stored, options));
+      outputs.commit();
       say(common, "wrote " + output + "\n");
+      return 0;
+    }
+    if (export_csv->parsed()) {
+      const result::AnalysisResult stored = result::read_result_file(case_path);
+      for (const auto& path : result::write_csv_export(stored, directory, case_path, common.force))
+        say(common, "wrote " + path + "\n");
       return 0;
     }
   } catch (const InputError& e) {

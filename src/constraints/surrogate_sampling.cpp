@@ -7,12 +7,6 @@
 #include "sigmatube/core/scrambled_sobol.h"
 
 namespace sigmatube::constraints {
-namespace {
-// The surrogate's sampling stream must differ from the Monte Carlo stream of the
-// same seed, or the cross-check would reuse the very germ points it checks.
-constexpr unsigned long long kSurrogateStream = 0x9E3779B97F4A7C15ULL;
-}  // namespace
-
 std::vector<int> constraint_columns(const std::vector<Constraint>& list, int n_times, int n_out) {
   std::vector<char> used(static_cast<std::size_t>(n_out), 0);
   for (const auto& c : list)

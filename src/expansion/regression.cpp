@@ -9,6 +9,8 @@
 #include "sigmatube/design/sampling_design.h"
 #include "sigmatube/expansion/polynomial_basis.h"
 
+#include "build_parts.h"
+
 namespace sigmatube::expansion {
 namespace {
 
@@ -77,6 +79,17 @@ Eigen::VectorXd relative_leave_one_out_error(const RegressionProjection& project
     result[c] = e.square().mean() / std::max(variance, floor);
   }
   return result;
+}
+
+Eigen::VectorXd corrected_leave_one_out_mse(const RegressionProjection& projection, const Eigen::MatrixXd& values,
+                                            const Eigen::MatrixXd& coefficients) {
+  const Eigen::MatrixXd residual = values - projection.basis * coefficients;
+  const Eigen::ArrayXd one_minus_h = 1.0 - projection.hat_diagonal.array();
+  // tr((ΨᵀΨ)⁻¹) = ‖W‖_F², W = (ΨᵀΨ)⁻¹Ψᵀ.
+  const double factor = detail::corrected_loo_factor(static_cast<int>(values.rows()),
+                                                     static_cast<int>(projection.indices.rows()),
+                                                     projection.matrix.squaredNorm());
+  return factor * (residual.array().colwise() / one_minus_h).square().colwise().mean().transpose().matrix();
 }
 
 }  // namespace sigmatube::expansion

@@ -15,9 +15,12 @@
 #include "sigmatube/expansion/multi_index.h"
 #include "sigmatube/expansion/polynomial_basis.h"
 #include "sigmatube/expansion/pseudo_spectral_projection.h"
+#include "sigmatube/expansion/grouped_sobol.h"
 #include "sigmatube/expansion/regression.h"
 #include "sigmatube/expansion/sobol_indices.h"
 #include "sigmatube/expansion/tensor_projection.h"
+
+#include "build_parts.h"
 
 namespace sigmatube::expansion {
 
@@ -95,11 +98,6 @@ Eigen::MatrixXd Surrogate::sobol_total() const {
 
 namespace {
 
-// Denominator floor of the relative error estimates: an output whose standard
-// deviation is below 1e-9·(1 + |mean|) is constant to the accuracy a model run
-// delivers (integrator tolerances are ~1e-8 relative), so its coefficient
-// differences are measured against that floor instead of against ~0.
-constexpr double kStdFloorRelative = 1e-9;
 // Highest level / degree the adaptive loop tries; beyond these the 1-D rules
 // themselves lose accuracy (Clenshaw–Curtis 2^29 points, Gauss recurrences).
 constexpr int kMaxSparseLevel = 25;
@@ -114,13 +112,38 @@ SourceLocation at(const casefile::SurrogateOptions& options, const std::string& 
   return where;
 }
 
+}  // namespace
+
 const char* method_name(casefile::SurrogateMethod method) {
   switch (method) {
     case casefile::SurrogateMethod::sparse_grid: return "sparse-grid";
     case casefile::SurrogateMethod::tensor_grid: return "tensor-grid";
     case casefile::SurrogateMethod::regression: return "regression";
+    case casefile::SurrogateMethod::adaptive_sparse_grid: return "adaptive-sparse-grid";
+    case casefile::SurrogateMethod::sparse_regression: return "sparse-regression";
   }
   throw std::logic_error("unknown surrogate method");
+}
+
+bool is_dimension_adaptive(casefile::SurrogateMethod method) {
+  return method == casefile::SurrogateMethod::adaptive_sparse_grid ||
+         method == casefile::SurrogateMethod::sparse_regression;
+}
+
+namespace {
+
+bool uses_hold_out(casefile::SurrogateMethod method) {
+  return method == casefile::SurrogateMethod::sparse_grid || method == casefile::SurrogateMethod::tensor_grid;
+}
+
+// Runs of the first step of a dimension-adaptive build (its hold-out included).
+int dimension_adaptive_first_runs(const std::vector<germ::FamilySpec>& families,
+                                  const casefile::SurrogateOptions& options) {
+  if (options.method == casefile::SurrogateMethod::adaptive_sparse_grid)
+    return detail::adaptive_sparse_grid_first_runs(families) +
+           std::max(detail::kMinHoldOutRuns,
+                    detail::hold_out_size(options.max_model_runs - detail::adaptive_sparse_grid_first_runs(families)));
+  return detail::sparse_regression_first_runs(families, options.max_model_runs);
 }
 
 void validate(const std::vector<germ::FamilySpec>& families, const casefile::SurrogateOptions& options) {
@@ -131,12 +154,33 @@ void validate(const std::vector<germ::FamilySpec>& families, const casefile::Sur
   if (options.max_model_runs < 1)
     throw InputError(at(options, "surrogate.max_model_runs"),
                      "must be at least 1, got " + std::to_string(options.max_model_runs));
-  if (options.adaptive && !(options.tolerance > 0.0)) {
+  if ((options.adaptive || is_dimension_adaptive(options.method)) && !(options.tolerance > 0.0)) {
     std::ostringstream m;
     m << "must be positive for an adaptive surrogate, got " << options.tolerance;
     throw InputError(at(options, "surrogate.tolerance"), m.str());
   }
   switch (options.method) {
+    case casefile::SurrogateMethod::adaptive_sparse_grid:
+    case casefile::SurrogateMethod::sparse_regression: {
+      const int first = dimension_adaptive_first_runs(families, options);
+      if (first > options.max_model_runs) {
+        std::ostringstream m;
+        m << "the first " << method_name(options.method) << " step over " << families.size() << " germ dimensions needs "
+          << first << " model runs"
+          << (options.method == casefile::SurrogateMethod::adaptive_sparse_grid
+                  ? " (the centre, 4 Leja points per dimension and " + std::to_string(detail::kMinHoldOutRuns) +
+                        " hold-out runs)"
+                  : " (two per linear basis function)")
+          << ", more than max_model_runs = " << options.max_model_runs;
+        throw InputError(at(options, "surrogate.max_model_runs"), m.str());
+      }
+      if (options.method == casefile::SurrogateMethod::sparse_regression && !(options.q_norm > 0.0 && options.q_norm <= 1.0)) {
+        std::ostringstream m;
+        m << "must lie in (0, 1], got " << options.q_norm;
+        throw InputError(at(options, "surrogate.q_norm"), m.str());
+      }
+      break;
+    }
     case casefile::SurrogateMethod::sparse_grid:
       if (options.level < 1 || options.level > kMaxSparseLevel)
         throw InputError(at(options, "surrogate.level"),
@@ -167,72 +211,6 @@ void validate(const std::vector<germ::FamilySpec>& families, const casefile::Sur
   }
 }
 
-// Model runs made so far, keyed by exact germ coordinates: designs of different
-// levels or degrees that share a point (nested rules, the Gauss node 0, the
-// prefix of a Sobol sequence) run it once.
-class RunCache {
- public:
-  RunCache(int n_columns, const ModelEvaluator* evaluate) : n_columns_(n_columns), evaluate_(evaluate) {}
-
-  int size() const { return static_cast<int>(rows_.size()); }
-
-  int count_new(const Eigen::MatrixXd& points) const {
-    std::map<std::vector<double>, int> fresh;
-    for (Eigen::Index i = 0; i < points.rows(); ++i) {
-      std::vector<double> key = row_key(points, i);
-      if (!rows_.count(key)) fresh.emplace(std::move(key), 0);
-    }
-    return static_cast<int>(fresh.size());
-  }
-
-  /// Runs every new point (one evaluator call) and returns Y [points.rows(), n_columns].
-  Eigen::MatrixXd values(const Eigen::MatrixXd& points) {
-    std::vector<Eigen::Index> missing;
-    std::map<std::vector<double>, int> pending;
-    for (Eigen::Index i = 0; i < points.rows(); ++i) {
-      std::vector<double> key = row_key(points, i);
-      if (!rows_.count(key) && !pending.count(key)) {
-        pending.emplace(std::move(key), static_cast<int>(missing.size()));
-        missing.push_back(i);
-      }
-    }
-    if (!missing.empty()) {
-      if (evaluate_ == nullptr || !*evaluate_) throw std::logic_error("RunCache: no evaluator");
-      Eigen::MatrixXd new_points(static_cast<Eigen::Index>(missing.size()), points.cols());
-      for (std::size_t j = 0; j < missing.size(); ++j) new_points.row(static_cast<Eigen::Index>(j)) = points.row(missing[j]);
-      Eigen::MatrixXd new_values(new_points.rows(), n_columns_);
-      (*evaluate_)(new_points, new_values);
-      if (new_values.rows() != new_points.rows() || new_values.cols() != n_columns_)
-        throw std::logic_error("model evaluator returned values of the wrong shape");
-      for (Eigen::Index j = 0; j < new_values.rows(); ++j) {
-        for (Eigen::Index c = 0; c < n_columns_; ++c) {
-          if (!std::isfinite(new_values(j, c))) {
-            std::ostringstream m;
-            m << "surrogate model run " << (size() + j) << " returned a non-finite value in column " << c;
-            throw NumericalError(m.str(), size() + j, std::numeric_limits<double>::quiet_NaN());
-          }
-        }
-        rows_.emplace(row_key(new_points, j), static_cast<int>(store_.size()));
-        store_.push_back(new_values.row(j));
-      }
-    }
-    Eigen::MatrixXd result(points.rows(), n_columns_);
-    for (Eigen::Index i = 0; i < points.rows(); ++i) result.row(i) = store_[rows_.at(row_key(points, i))];
-    return result;
-  }
-
- private:
-  static std::vector<double> row_key(const Eigen::MatrixXd& points, Eigen::Index i) {
-    std::vector<double> key(static_cast<std::size_t>(points.cols()));
-    for (Eigen::Index k = 0; k < points.cols(); ++k) key[static_cast<std::size_t>(k)] = points(i, k);
-    return key;
-  }
-  int n_columns_;
-  const ModelEvaluator* evaluate_;
-  std::map<std::vector<double>, int> rows_;
-  std::vector<Eigen::RowVectorXd> store_;
-};
-
 // The design of one level (sparse grid) or degree (tensor grid, regression).
 struct Design {
   int setting = 0;
@@ -256,8 +234,10 @@ double design_size_bound(const std::vector<germ::FamilySpec>& families, const ca
       return regression_size(static_cast<int>(hyperbolic_set(d, setting, options.q_norm).rows()), options.oversampling);
     }
     case casefile::SurrogateMethod::sparse_grid: return 0.0;  // counted after building (cheap, no runs)
+    case casefile::SurrogateMethod::adaptive_sparse_grid:
+    case casefile::SurrogateMethod::sparse_regression: break;
   }
-  return 0.0;
+  throw std::logic_error("design_size_bound: not a fixed-design method");
 }
 
 Design make_design(const std::vector<germ::FamilySpec>& families, const casefile::SurrogateOptions& options,
@@ -282,6 +262,8 @@ Design make_design(const std::vector<germ::FamilySpec>& families, const casefile
                           : design::latin_hypercube_design(families, n, kLatinHypercubeSeed);
       break;
     }
+    case casefile::SurrogateMethod::adaptive_sparse_grid:
+    case casefile::SurrogateMethod::sparse_regression: throw std::logic_error("make_design: not a fixed-design method");
   }
   return design;
 }
@@ -290,119 +272,60 @@ struct Fit {
   int setting = 0;
   MultiIndexSet indices;
   Eigen::MatrixXd coefficients;  // [P, n_columns]
-  Eigen::VectorXd loo;           // regression: ε_LOO per column
+  Eigen::VectorXd column_mse;    // regression: corrected leave-one-out mean squared error per column
+  Eigen::MatrixXd matrix;        // W of the fit, [P, N]
+  Eigen::MatrixXd points;        // its design points, [N, d]
 };
 
 Fit fit(const std::vector<germ::FamilySpec>& families, const casefile::SurrogateOptions& options, const Design& design,
-        RunCache& cache) {
+        detail::RunCache& cache) {
   const Eigen::MatrixXd values = cache.values(design.points);
   Fit result;
   result.setting = design.setting;
+  result.points = design.points;
   switch (options.method) {
     case casefile::SurrogateMethod::sparse_grid: {
       const LinearProjection projection = sparse_pseudo_spectral_projection(families, design.grid);
       result.indices = projection.indices;
       result.coefficients.noalias() = projection.matrix * values;
+      result.matrix = projection.matrix;
       break;
     }
     case casefile::SurrogateMethod::tensor_grid:
       result.indices = design.tensor.indices;
       result.coefficients.noalias() = design.tensor.matrix * values;
+      result.matrix = design.tensor.matrix;
       break;
     case casefile::SurrogateMethod::regression: {
       const RegressionProjection projection = regression_on_points(families, design.indices, design.points);
       result.indices = projection.indices;
       result.coefficients.noalias() = projection.matrix * values;
-      result.loo = relative_leave_one_out_error(projection, values, result.coefficients);
+      result.column_mse = corrected_leave_one_out_mse(projection, values, result.coefficients);
+      result.matrix = projection.matrix;
       break;
     }
-  }
-  return result;
-}
-
-// max(sd_c, floor) per column of a fit, the denominator of the relative estimates.
-Eigen::VectorXd scale_of(const Fit& f) {
-  const Eigen::Index n_columns = f.coefficients.cols();
-  Eigen::VectorXd scale(n_columns);
-  for (Eigen::Index c = 0; c < n_columns; ++c) {
-    const double sd = f.coefficients.col(c).tail(f.coefficients.rows() - 1).norm();
-    scale[c] = std::max(sd, kStdFloorRelative * (1.0 + std::abs(f.coefficients(0, c))));
-  }
-  return scale;
-}
-
-// ‖C_fine − C_coarse‖₂ / max(sd, floor) per column, over the union of both index sets.
-Eigen::VectorXd difference_estimate(const Fit& fine, const Fit& coarse) {
-  const std::vector<int> coarse_in_fine = rows_in(coarse.indices, fine.indices);
-  Eigen::MatrixXd difference = fine.coefficients;
-  Eigen::RowVectorXd outside = Eigen::RowVectorXd::Zero(fine.coefficients.cols());
-  for (std::size_t r = 0; r < coarse_in_fine.size(); ++r) {
-    const Eigen::Index row = static_cast<Eigen::Index>(r);
-    if (coarse_in_fine[r] >= 0)
-      difference.row(coarse_in_fine[r]) -= coarse.coefficients.row(row);
-    else
-      outside += coarse.coefficients.row(row).array().square().matrix();
-  }
-  const Eigen::VectorXd norm = (difference.colwise().squaredNorm() + outside).cwiseSqrt().transpose();
-  return norm.cwiseQuotient(scale_of(fine));
-}
-
-// ‖C_{|α| = p}‖₂ / max(sd, floor) per column: the part of the expansion that the
-// highest total degree carries.
-Eigen::VectorXd top_degree_estimate(const Fit& f) {
-  const Eigen::VectorXi degree = f.indices.rowwise().sum();
-  const int top = degree.maxCoeff();
-  Eigen::RowVectorXd squared = Eigen::RowVectorXd::Zero(f.coefficients.cols());
-  for (Eigen::Index r = 0; r < f.indices.rows(); ++r)
-    if (degree[r] == top && top > 0) squared += f.coefficients.row(r).array().square().matrix();
-  return squared.cwiseSqrt().transpose().cwiseQuotient(scale_of(f));
-}
-
-// Per output: the column estimates pooled over report times, weighted by each
-// column's spread, so that a report time where the output hardly varies (say the
-// initial instant of an unperturbed state) cannot dominate:
-//   norm ratios (‖ΔC_c‖/s_c):     √(Σ_t ‖ΔC_c‖²) / √(Σ_t s_c²)
-//   ratios of squares (LOO):      Σ_t ε_c s_c² / Σ_t s_c²
-// i.e. the relative error of the output's whole time history. NaN wins.
-Eigen::VectorXd per_output(const Eigen::VectorXd& columns, const Eigen::VectorXd& scale, bool ratio_of_squares,
-                           int n_times, int n_outputs) {
-  Eigen::VectorXd result = Eigen::VectorXd::Constant(n_outputs, 0.0);
-  for (int o = 0; o < n_outputs; ++o) {
-    double numerator = 0.0, denominator = 0.0;
-    bool nan = false;
-    for (int t = 0; t < n_times; ++t) {
-      const double e = columns[t * n_outputs + o];
-      const double s2 = scale[t * n_outputs + o] * scale[t * n_outputs + o];
-      if (std::isnan(e)) nan = true;
-      numerator += ratio_of_squares ? e * s2 : e * e * s2;
-      denominator += s2;
-    }
-    result[o] = nan ? std::numeric_limits<double>::quiet_NaN()
-                    : (ratio_of_squares ? numerator / denominator : std::sqrt(numerator / denominator));
+    case casefile::SurrogateMethod::adaptive_sparse_grid:
+    case casefile::SurrogateMethod::sparse_regression: throw std::logic_error("fit: not a fixed-design method");
   }
   return result;
 }
 
 struct Start {
   int setting = 0;
-  bool needs_previous = false;  // the estimate compares with setting − 1
 };
 
 Start start_of(const casefile::SurrogateOptions& options) {
   Start s;
   switch (options.method) {
     case casefile::SurrogateMethod::sparse_grid:
-      // Level 1 (one point) has no coarser level to compare with.
       s.setting = options.adaptive ? std::max(2, options.level) : options.level;
-      s.needs_previous = s.setting >= 2;
       break;
     case casefile::SurrogateMethod::tensor_grid:
-      s.setting = options.adaptive ? std::max(1, options.degree) : options.degree;
-      s.needs_previous = options.adaptive;
-      break;
     case casefile::SurrogateMethod::regression:
       s.setting = options.adaptive ? std::max(1, options.degree) : options.degree;
       break;
+    case casefile::SurrogateMethod::adaptive_sparse_grid:
+    case casefile::SurrogateMethod::sparse_regression: break;
   }
   return s;
 }
@@ -411,87 +334,140 @@ const char* setting_name(casefile::SurrogateMethod method) {
   return method == casefile::SurrogateMethod::sparse_grid ? "level" : "degree";
 }
 
-// The first design(s) a build runs; throws InputError when they exceed the budget.
-std::vector<Design> first_designs(const std::vector<germ::FamilySpec>& families,
-                                  const casefile::SurrogateOptions& options, int* runs) {
-  validate(families, options);
+// The first design of a fixed-design build; throws InputError when it exceeds the
+// budget. *runs: its distinct runs, *hold_out: the hold-out runs that fit beside it.
+Design first_design(const std::vector<germ::FamilySpec>& families, const casefile::SurrogateOptions& options,
+                    int* runs, int* hold_out) {
   const Start start = start_of(options);
   const auto over_budget = [&](double runs_needed) {
     std::ostringstream m;
     m << "the first " << method_name(options.method) << " design (" << setting_name(options.method) << " "
-      << start.setting << (start.needs_previous ? " and the one below it for the error estimate" : "") << ") needs "
-      << runs_needed << " model runs, more than max_model_runs = " << options.max_model_runs;
+      << start.setting << ") needs " << runs_needed << " model runs, more than max_model_runs = "
+      << options.max_model_runs;
     return InputError(at(options, "surrogate.max_model_runs"), m.str());
   };
   const double bound = design_size_bound(families, options, start.setting);
   if (bound > options.max_model_runs) throw over_budget(bound);
-  std::vector<Design> designs;
-  designs.push_back(make_design(families, options, start.setting));
-  if (start.needs_previous) designs.push_back(make_design(families, options, start.setting - 1));
-  Eigen::Index total_rows = 0;
-  for (const auto& d : designs) total_rows += d.points.rows();
-  Eigen::MatrixXd all(total_rows, static_cast<Eigen::Index>(families.size()));
-  Eigen::Index row = 0;
-  for (const auto& d : designs) {
-    all.middleRows(row, d.points.rows()) = d.points;
-    row += d.points.rows();
-  }
-  const int count = RunCache(0, nullptr).count_new(all);
+  Design design = make_design(families, options, start.setting);
+  const int count = detail::RunCache(0, nullptr).count_new(design.points);
   if (count > options.max_model_runs) throw over_budget(count);
   if (runs) *runs = count;
-  return designs;
+  if (hold_out) *hold_out = uses_hold_out(options.method) ? detail::hold_out_size(options.max_model_runs - count) : 0;
+  return design;
+}
+
+void finish_summary(SurrogateSummary& out, const detail::RunCache& cache, int n_times, int n_outputs,
+                    const std::vector<std::pair<int, double>>& history) {
+  for (auto& note : detail::saturation_notes(cache, n_times, n_outputs)) out.notes.push_back(std::move(note));
+  const std::string stalled = detail::stall_note(history);
+  if (!stalled.empty() && !out.tolerance_met) out.notes.push_back(stalled);
+}
+
+Surrogate make_surrogate(const std::vector<germ::FamilySpec>& families, MultiIndexSet indices,
+                         Eigen::MatrixXd coefficients, int n_times, int n_outputs) {
+  Surrogate surrogate;
+  surrogate.families = families;
+  surrogate.indices = std::move(indices);
+  surrogate.coefficients = std::move(coefficients);
+  surrogate.n_times = n_times;
+  surrogate.n_outputs = n_outputs;
+  return surrogate;
+}
+
+// "runs after each refinement: a, b, …" (at most 40 numbers, the middle elided).
+std::string runs_note(const std::vector<int>& runs) {
+  std::ostringstream m;
+  m << "runs after each step:";
+  const std::size_t n = runs.size();
+  for (std::size_t i = 0; i < n; ++i) {
+    if (n > 40 && i == 20) {
+      m << " …";
+      i = n - 20;
+    }
+    m << (i ? ", " : " ") << runs[i];
+  }
+  return m.str();
+}
+
+Surrogate build_dimension_adaptive(const std::vector<germ::FamilySpec>& families, int n_times, int n_outputs,
+                                   const casefile::SurrogateOptions& options, const ModelEvaluator& evaluate,
+                                   SurrogateSummary& out) {
+  detail::RunCache cache(n_times * n_outputs, &evaluate);
+  detail::AdaptiveOutcome outcome =
+      options.method == casefile::SurrogateMethod::adaptive_sparse_grid
+          ? detail::adaptive_sparse_grid(families, n_times, n_outputs, options, cache)
+          : detail::sparse_regression(families, n_times, n_outputs, options, cache);
+  out.model_runs = cache.size();
+  out.level_reached = 0;
+  out.degree_reached = outcome.indices.rowwise().sum().maxCoeff();
+  out.error_estimate = outcome.error_estimate;
+  out.tolerance_met = outcome.tolerance_met;
+  out.runs_per_refinement = outcome.runs_per_refinement;
+  out.stop_reason = outcome.stop_reason;
+  for (Eigen::Index k = 0; k < outcome.indices.cols(); ++k) {
+    int degree = 0, terms = 0;
+    for (Eigen::Index r = 0; r < outcome.indices.rows(); ++r)
+      if (outcome.indices(r, k) > 0) degree = std::max(degree, outcome.indices(r, k)), ++terms;
+    out.retained_degree_per_input.push_back(degree);
+    out.retained_terms_per_input.push_back(terms);
+  }
+  std::ostringstream head;
+  head << out.method << ": " << out.model_runs << " model runs, " << outcome.indices.rows()
+       << " basis functions, total degree " << out.degree_reached;
+  out.notes.push_back(head.str());
+  out.notes.push_back("stopped: " + outcome.stop_reason);
+  for (auto& note : outcome.notes) out.notes.push_back(std::move(note));
+  out.notes.push_back(runs_note(outcome.runs_per_refinement));
+  out.notes.push_back(detail::retained_per_input(outcome.indices));
+  finish_summary(out, cache, n_times, n_outputs, outcome.history);
+
+  return make_surrogate(families, std::move(outcome.indices), std::move(outcome.coefficients), n_times, n_outputs);
 }
 
 }  // namespace
 
 int planned_model_runs(const std::vector<germ::FamilySpec>& families, const casefile::SurrogateOptions& options) {
-  int runs = 0;
-  first_designs(families, options, &runs);
-  return runs;
+  validate(families, options);
+  if (is_dimension_adaptive(options.method)) return dimension_adaptive_first_runs(families, options);
+  int runs = 0, hold_out = 0;
+  first_design(families, options, &runs, &hold_out);
+  return runs + hold_out;
 }
 
 Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_times, int n_outputs,
                           const casefile::SurrogateOptions& options, const ModelEvaluator& evaluate,
                           SurrogateSummary* summary) {
   if (n_times < 1 || n_outputs < 1) throw std::logic_error("build_surrogate: needs at least one time and one output");
-  std::vector<Design> designs = first_designs(families, options, nullptr);
-  const int n_columns = n_times * n_outputs;
+  validate(families, options);
   const casefile::SurrogateMethod method = options.method;
-  const Start start = start_of(options);
   SurrogateSummary local;
   SurrogateSummary& out = summary ? *summary : local;
   out = SurrogateSummary{};
   out.method = method_name(method);
+  if (is_dimension_adaptive(method)) return build_dimension_adaptive(families, n_times, n_outputs, options, evaluate, out);
+
+  int design_runs = 0, n_hold = 0;
+  const Design first = first_design(families, options, &design_runs, &n_hold);
+  const int n_columns = n_times * n_outputs;
   if (options.nested && method != casefile::SurrogateMethod::sparse_grid)
     out.notes.push_back("surrogate.nested applies to sparse grids only and was ignored");
 
-  RunCache cache(n_columns, &evaluate);
+  detail::RunCache cache(n_columns, &evaluate);
+  const Eigen::MatrixXd hold_points = detail::hold_out_points(families, n_hold);
+  Eigen::MatrixXd hold_values;
   {
-    // One evaluator call for every point of the first design(s).
-    Eigen::Index rows = 0;
-    for (const auto& d : designs) rows += d.points.rows();
-    Eigen::MatrixXd all(rows, static_cast<Eigen::Index>(families.size()));
-    rows = 0;
-    for (const auto& d : designs) {
-      all.middleRows(rows, d.points.rows()) = d.points;
-      rows += d.points.rows();
-    }
-    cache.values(all);
+    // One evaluator call for every point of the first design and the hold-out.
+    Eigen::MatrixXd all(first.points.rows() + hold_points.rows(), static_cast<Eigen::Index>(families.size()));
+    all << first.points, hold_points;
+    hold_values = cache.values(all).bottomRows(hold_points.rows());
   }
-  std::optional<Fit> coarse;
-  if (designs.size() > 1) coarse = fit(families, options, designs[1], cache);
-  Fit current = fit(families, options, designs[0], cache);
+  Fit current = fit(families, options, first, cache);
 
-  const auto estimate = [&](const Fit& f, const std::optional<Fit>& previous) -> Eigen::VectorXd {
-    switch (method) {
-      case casefile::SurrogateMethod::sparse_grid:
-        if (previous) return difference_estimate(f, *previous);
-        return Eigen::VectorXd::Constant(n_columns, std::numeric_limits<double>::quiet_NaN());
-      case casefile::SurrogateMethod::tensor_grid:
-        return previous ? difference_estimate(f, *previous) : top_degree_estimate(f);
-      case casefile::SurrogateMethod::regression: return f.loo;
-    }
-    throw std::logic_error("unknown method");
+  const auto estimate = [&](const Fit& f) -> Eigen::VectorXd {
+    const Eigen::VectorXd mse = method == casefile::SurrogateMethod::regression
+                                    ? f.column_mse
+                                    : detail::hold_out_mse(families, f.indices, f.coefficients, hold_points, hold_values);
+    return detail::pooled_relative_rmse(mse, f.coefficients, n_times, n_outputs);
   };
   const auto all_within = [&](const Eigen::VectorXd& e) {
     for (Eigen::Index i = 0; i < e.size(); ++i)
@@ -499,10 +475,11 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
     return true;
   };
 
-  const bool loo = method == casefile::SurrogateMethod::regression;
-  Eigen::VectorXd errors = per_output(estimate(current, coarse), scale_of(current), loo, n_times, n_outputs);
-  if (method == casefile::SurrogateMethod::sparse_grid && !start.needs_previous)
-    out.notes.push_back("sparse-grid level 1 has no coarser level: no error estimate");
+  Eigen::VectorXd errors = estimate(current);
+  std::vector<std::pair<int, double>> history{{cache.size(), errors.maxCoeff()}};
+  if (uses_hold_out(method) && n_hold == 0)
+    out.notes.push_back("no error estimate: max_model_runs leaves fewer than " + std::to_string(detail::kMinHoldOutRuns) +
+                        " runs for the hold-out beside the design");
 
   if (options.adaptive) {
     if (method == casefile::SurrogateMethod::regression && options.design == casefile::RegressionDesign::latin_hypercube)
@@ -537,9 +514,10 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
         out.notes.push_back(note.str());
         break;
       }
-      coarse = std::move(current);
       current = fit(families, options, *design, cache);
-      errors = per_output(estimate(current, coarse), scale_of(current), loo, n_times, n_outputs);
+      errors = estimate(current);
+      out.runs_per_refinement.push_back(cache.size());
+      history.emplace_back(cache.size(), errors.maxCoeff());
     }
   }
 
@@ -551,19 +529,18 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
   {
     std::ostringstream note;
     note << out.method << " " << setting_name(method) << " " << current.setting << ": " << out.model_runs
-         << " model runs, " << current.indices.rows() << " basis functions, total degree " << out.degree_reached;
+         << " model runs";
+    if (n_hold > 0) note << " (" << n_hold << " of them hold-out runs for the error estimate)";
+    note << ", " << current.indices.rows() << " basis functions, total degree " << out.degree_reached;
     out.notes.insert(out.notes.begin(), note.str());
   }
   if (!options.adaptive && !out.tolerance_met)
     out.notes.push_back("error estimate above tolerance (non-adaptive build: level and degree were not raised)");
+  finish_summary(out, cache, n_times, n_outputs, history);
 
-  Surrogate surrogate;
-  surrogate.families = families;
-  surrogate.indices = std::move(current.indices);
-  surrogate.coefficients = std::move(current.coefficients);
-  surrogate.n_times = n_times;
-  surrogate.n_outputs = n_outputs;
-  return surrogate;
+  out.covariance = linear_fit_covariance(current.matrix, basis_matrix(families, current.indices, current.points),
+                                         cache.values(current.points), current.coefficients);
+  return make_surrogate(families, std::move(current.indices), std::move(current.coefficients), n_times, n_outputs);
 }
 
 Surrogate constant_surrogate(const Eigen::MatrixXd& nominal_outputs) {

@@ -4,6 +4,7 @@
 #include <boost/math/distributions/beta.hpp>
 #include <boost/math/distributions/gamma.hpp>
 #include <boost/math/distributions/normal.hpp>
+#include <charconv>
 #include <cmath>
 #include <sstream>
 #include <stdexcept>
@@ -17,15 +18,52 @@ double lower_tail(double z) { return boost::math::cdf(kStandardNormal, z); }
 double upper_tail(double z) { return boost::math::cdf(boost::math::complement(kStandardNormal, z)); }
 }  // namespace
 
+namespace {
+std::string shortest(double v) {
+  char buffer[64];
+  const auto [end, ec] = std::to_chars(buffer, buffer + sizeof buffer, v);
+  if (ec != std::errc()) throw std::logic_error("to_string: number does not print");
+  return std::string(buffer, end);
+}
+}  // namespace
+
 std::string to_string(const FamilySpec& spec) {
-  std::ostringstream out;
   switch (spec.family) {
     case Family::hermite: return "hermite";
     case Family::legendre: return "legendre";
-    case Family::jacobi: out << "jacobi(a=" << spec.a << ", b=" << spec.b << ")"; return out.str();
-    case Family::laguerre: out << "laguerre(a=" << spec.a << ")"; return out.str();
+    case Family::jacobi: return "jacobi(a=" + shortest(spec.a) + ", b=" + shortest(spec.b) + ")";
+    case Family::laguerre: return "laguerre(a=" + shortest(spec.a) + ")";
   }
   throw std::logic_error("to_string: unknown family");
+}
+
+FamilySpec family_from_string(const std::string& text) {
+  if (text == "hermite") return {Family::hermite, 0.0, 0.0};
+  if (text == "legendre") return {Family::legendre, 0.0, 0.0};
+  // Reads "<prefix><number><suffix>" exactly, the number with from_chars.
+  auto number_between = [&](std::size_t& at, const std::string& prefix, const std::string& suffix) {
+    if (text.compare(at, prefix.size(), prefix) != 0) throw std::invalid_argument("unknown germ family '" + text + "'");
+    at += prefix.size();
+    double value = 0.0;
+    const auto [end, ec] = std::from_chars(text.data() + at, text.data() + text.size(), value);
+    if (ec != std::errc()) throw std::invalid_argument("unknown germ family '" + text + "'");
+    at = static_cast<std::size_t>(end - text.data());
+    if (text.compare(at, suffix.size(), suffix) != 0) throw std::invalid_argument("unknown germ family '" + text + "'");
+    at += suffix.size();
+    return value;
+  };
+  std::size_t at = 0;
+  FamilySpec spec;
+  if (text.rfind("jacobi(", 0) == 0) {
+    spec.family = Family::jacobi;
+    spec.a = number_between(at, "jacobi(a=", ", ");
+    spec.b = number_between(at, "b=", ")");
+  } else {
+    spec.family = Family::laguerre;
+    spec.a = number_between(at, "laguerre(a=", ")");
+  }
+  if (at != text.size()) throw std::invalid_argument("unknown germ family '" + text + "'");
+  return spec;
 }
 
 double from_standard_normal(const FamilySpec& spec, double z) {

@@ -2,6 +2,7 @@
 #include "sigmatube/germ/germ.h"
 
 #include <algorithm>
+#include <charconv>
 #include <boost/math/distributions/normal.hpp>
 #include <boost/math/distributions/triangular.hpp>
 #include <cmath>
@@ -60,11 +61,11 @@ void require(bool condition, const UncertainOptions& entry, const std::string& k
   if (!condition) fail(entry, key, message);
 }
 
+// Shortest digits that read back to the same double: 0.1, not 0.10000000000000001.
 std::string number(double value) {
-  std::ostringstream out;
-  out.precision(17);
-  out << value;
-  return out.str();
+  char buffer[64];
+  const auto end = std::to_chars(buffer, buffer + sizeof buffer, value).ptr;
+  return std::string(buffer, end);
 }
 
 const char* distribution_name(DistributionKind kind) {
@@ -384,6 +385,23 @@ Germ Germ::build(const std::vector<casefile::UncertainOptions>& inputs, const Ta
     germ.blocks_.push_back(std::move(block));
   }
   return germ;
+}
+
+std::vector<std::string> Germ::input_names() const {
+  std::vector<std::string> names;
+  for (const Block& block : blocks_) names.push_back(block.input);
+  return names;
+}
+
+std::vector<std::vector<int>> Germ::input_dimensions() const {
+  std::vector<std::vector<int>> groups;
+  for (std::size_t b = 0; b < blocks_.size(); ++b) {
+    const int end = b + 1 < blocks_.size() ? blocks_[b + 1].first : dimension();
+    std::vector<int> dims;
+    for (int j = blocks_[b].first; j < end; ++j) dims.push_back(j);
+    groups.push_back(std::move(dims));
+  }
+  return groups;
 }
 
 void Germ::add_to_target(const Target& target, double x, int n_times, model::Perturbation& perturbation) {

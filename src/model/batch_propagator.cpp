@@ -15,6 +15,7 @@
 #include "sigmatube/model/expression_model.h"
 #include "sigmatube/model/integrator.h"
 #include "sigmatube/model/plan.h"
+#include "sigmatube/model/plugin_model.h"
 #include "lane_kernels.h"
 
 namespace sigmatube::model {
@@ -24,6 +25,7 @@ BatchPropagator::BatchPropagator(const ClosedLoop& closed_loop, const casefile::
   const Model& model = closed_loop.model();
   supported_ = simulation_.integrator == casefile::IntegratorKind::rk4;
   hcw_ = dynamic_cast<const HillClohessyWiltshire*>(&model) != nullptr;
+  plugin_ = dynamic_cast<const PluginModel*>(&model);
   if (!hcw_ && options.model.builtin.empty() && dynamic_cast<const ExpressionModel*>(&model) != nullptr) {
     std::vector<std::string> names{"t"};
     for (const auto& v : {&model.state_names(), &model.input_names(), &model.parameter_names()})
@@ -194,6 +196,10 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
         dxdt[4 * L + l] = -2.0 * nl * x3[l] + a1[l];
         dxdt[5 * L + l] = -nl * nl * x2[l] + a2[l];
       }
+    } else if (plugin_ != nullptr) {
+      // The plugin's own lane loop over the same structure-of-arrays layout.
+      inputs_at(t, state);
+      plugin_->rhs_lanes(t, lanes, state, u_app.data(), params.data(), dxdt);
     } else if (!programs_.empty()) {
       inputs_at(t, state);
       std::fill(t_lanes.begin(), t_lanes.end(), t);

@@ -29,6 +29,16 @@ void zero(double* a, int count) {
 }
 }  // namespace
 
+std::string BuiltinModel::unit(const std::string& n) const {
+  if (n == "x" || n == "y" || n == "z") return "m";
+  if (n == "vx" || n == "vy" || n == "vz" || n == "speed") return "m/s";
+  if (n == "ax" || n == "ay" || n == "az") return "m/s^2";
+  if (n == "fx" || n == "fy" || n == "fz") return "N";
+  if (n == "heading") return "rad";
+  if (n == "turn_rate") return "rad/s";
+  return "";
+}
+
 const std::vector<std::string>& builtin_model_names() {
   static const std::vector<std::string> names{"hill-clohessy-wiltshire", "double-integrator-3d", "unicycle",
                                               "multirotor-point-mass"};

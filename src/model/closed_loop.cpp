@@ -14,6 +14,37 @@
 #include "sigmatube/model/plan.h"
 
 namespace sigmatube::model {
+namespace {
+
+std::string rounded(double value) {
+  std::ostringstream out;
+  out.precision(3);
+  out << value;
+  return out.str();
+}
+
+// Report times and integration steps of one run against [limits], before the
+// controller's Riccati sweep or any run (both scale with them).
+void check_run_size(const casefile::CaseOptions& options, double plan_length) {
+  const auto& sim = options.simulation;
+  const auto& limits = options.limits;
+  const double steps = plan_length / sim.step_in_seconds;
+  if (!(steps <= limits.max_steps))
+    throw InputError(sim.key_where.of("step", sim.where),
+                     rounded(sim.step_in_seconds) + " s steps over the " + rounded(plan_length) + " s plan make " +
+                         rounded(steps) + " steps per run, more than the limit " + rounded(limits.max_steps) +
+                         " (limits.max_steps)");
+  if (sim.report_every_in_seconds > 0.0) {
+    const double times = plan_length / sim.report_every_in_seconds + 1.0;
+    if (!(times <= static_cast<double>(limits.max_report_times)))
+      throw InputError(sim.key_where.of("report_every", sim.where),
+                       "reporting every " + rounded(sim.report_every_in_seconds) + " s over the " + rounded(plan_length) +
+                           " s plan makes " + rounded(times) + " report times, more than the limit " +
+                           std::to_string(limits.max_report_times) + " (limits.max_report_times)");
+  }
+}
+
+}  // namespace
 
 ClosedLoop::ClosedLoop(std::shared_ptr<const Model> model, const casefile::CaseOptions& options)
     : model_(std::move(model)), simulation_(options.simulation) {
@@ -28,6 +59,7 @@ ClosedLoop::ClosedLoop(std::shared_ptr<const Model> model, const casefile::CaseO
   }
 
   plan_ = std::make_unique<Plan>(options.plan, *model_);
+  check_run_size(options, plan_->end_time() - plan_->start_time());
 
   input_low_ = Eigen::VectorXd::Constant(m, -std::numeric_limits<double>::infinity());
   input_high_ = Eigen::VectorXd::Constant(m, std::numeric_limits<double>::infinity());
@@ -67,6 +99,22 @@ ClosedLoop::ClosedLoop(std::shared_ptr<const Model> model, const casefile::CaseO
   const auto& derived = model_->derived_output_names();
   output_names_.insert(output_names_.end(), derived.begin(), derived.end());
   for (const auto& input : inputs) output_names_.push_back("cmd." + input);
+
+  // Units: the case file's [model] units, else the model's own; cmd.<input> has its input's.
+  std::vector<std::string> named = model_->state_names();
+  named.insert(named.end(), derived.begin(), derived.end());
+  named.insert(named.end(), inputs.begin(), inputs.end());
+  for (const auto& entry : options.model.units)
+    if (std::find(named.begin(), named.end(), entry.name) == named.end())
+      throw InputError(entry.where, "'" + entry.name + "' is not a state, input or output of model '" +
+                                        model_->name() + "'" + casefile::suggestion_or_list(entry.name, named));
+  const auto unit_of = [&](const std::string& name) {
+    for (const auto& entry : options.model.units)
+      if (entry.name == name) return entry.text;
+    return model_->unit(name);
+  };
+  for (const auto& name : output_names_)
+    output_units_.push_back(name.rfind("cmd.", 0) == 0 ? unit_of(name.substr(4)) : unit_of(name));
 }
 
 ClosedLoop::~ClosedLoop() = default;

@@ -2,6 +2,8 @@
 #include "sigmatube/model/integrator.h"
 
 #include <algorithm>
+#include <atomic>
+#include <iostream>
 #include <cmath>
 #include <sstream>
 
@@ -39,6 +41,24 @@ OdeIntegrator::OdeIntegrator(const casefile::SimulationOptions& options, int dim
     v->resize(n_);
 }
 
+void OdeIntegrator::warn_stiff(double t, double plan_length, double h, double expected_steps, const double* x) const {
+  static std::atomic<bool> warned{false};
+  if (warned.exchange(true)) return;
+  std::ostringstream message;
+  message.precision(4);
+  message << "sigmatube: warning: " << (sample_ < 0 ? std::string("the nominal run") : "run " + std::to_string(sample_))
+          << " needs far more integration steps than the plan suggests: " << accepted_ + rejected_ << " steps by t = "
+          << t << " s of a " << plan_length << " s plan (about " << std::ceil(expected_steps)
+          << " at the largest step), step now " << h << " s; stiff dynamics? (dopri5 is explicit) state:";
+  for (int i = 0; i < std::min(n_, 8); ++i)
+    message << ' '
+            << (names_ && static_cast<int>(names_->size()) > i ? (*names_)[static_cast<std::size_t>(i)]
+                                                                : std::to_string(i))
+            << " = " << x[i];
+  if (n_ > 8) message << " …";
+  std::cerr << message.str() << '\n';
+}
+
 void OdeIntegrator::check_state(double t, const double* x) const {
   for (int i = 0; i < n_; ++i) {
     if (!std::isfinite(x[i]) || std::abs(x[i]) > kDivergenceBound) {
@@ -72,7 +92,17 @@ void OdeIntegrator::integrate_rk4(const Rhs& f, const std::vector<double>& times
   for (std::size_t k = 1; k < times.size(); ++k) {
     const double span = times[k] - times[k - 1];
     // Relative slack so a span that is a whole multiple of the step is not split once more by rounding.
-    const long long pieces = std::max(1LL, static_cast<long long>(std::ceil(span / options_.step_in_seconds - 1e-9)));
+    // Computed in floating point first: a tiny step must not overflow the count.
+    const double wanted = std::ceil(span / options_.step_in_seconds - 1e-9);
+    if (!(wanted <= kMaxStepsPerSpan))
+    {
+      std::ostringstream message;
+      message.precision(3);
+      message << "a step of " << options_.step_in_seconds << " s needs more than " << kMaxStepsPerSpan
+              << " steps between report times";
+      throw InputError(SourceLocation{options_.where.file, options_.where.line, "simulation.step"}, message.str());
+    }
+    const long long pieces = std::max(1LL, static_cast<long long>(wanted));
     const double h = span / static_cast<double>(pieces);
     for (long long s = 0; s < pieces; ++s) {
       const double t = times[k - 1] + static_cast<double>(s) * h;
@@ -131,6 +161,12 @@ void OdeIntegrator::integrate_dopri5(const Rhs& f, const std::vector<double>& ti
     h = std::min({100.0 * h0, h1, hmax});
   }
 
+  // Stiffness watchdog: far more steps than the plan's length at the largest
+  // step suggests means stiff dynamics for an explicit method; said once.
+  const double expected_steps = (tf - t0) / hmax;
+  const double watchdog_steps = std::max(kWatchdogMinimumSteps, kWatchdogFactor * expected_steps);
+  bool watchdog_checked = false;
+
   std::size_t next = 1;  // next report time index
   double fac_old = 1e-4;
   bool last_rejected = false;
@@ -154,6 +190,10 @@ void OdeIntegrator::integrate_dopri5(const Rhs& f, const std::vector<double>& ti
               << "' = " << y(worst);
       throw NumericalError(message.str(), sample_, t);
     }
+    if (!watchdog_checked && static_cast<double>(accepted_ + rejected_) > watchdog_steps) {
+      watchdog_checked = true;
+      warn_stiff(t, tf - t0, h, expected_steps, y.data());
+    }
     f(t + c2 * h, (y_ = y + h * a21 * k1_).data(), k2_.data());
     f(t + c3 * h, (y_ = y + h * (a31 * k1_ + a32 * k2_)).data(), k3_.data());
     f(t + c4 * h, (y_ = y + h * (a41 * k1_ + a42 * k2_ + a43 * k3_)).data(), k4_.data());
@@ -172,7 +212,8 @@ void OdeIntegrator::integrate_dopri5(const Rhs& f, const std::vector<double>& ti
     err = std::sqrt(err / n_);
     if (!std::isfinite(err)) {
       // A stage left the finite numbers: shrink hard, the divergence check catches a true blow-up.
-      if (!ynew_.allFinite() && h <= hmin * 10.0) check_state(tnew, ynew_.data());
+      // (A NaN step, from a right-hand side that is NaN at the start, counts as tiny.)
+      if (!ynew_.allFinite() && !(h > hmin * 10.0)) check_state(tnew, ynew_.data());
       h *= 0.1;
       last_rejected = true;
       ++rejected_;

@@ -41,3 +41,7 @@ void Model::jacobians(double t, const double* x, const double* u, const double* 
 void Model::derived_outputs(double, const double*, const double*, const double*, double*) const {}
 
 }  // namespace sigmatube::model
+
+namespace sigmatube::model {
+std::string Model::unit(const std::string&) const { return ""; }
+}  // namespace sigmatube::model

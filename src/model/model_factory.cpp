@@ -7,6 +7,7 @@
 #include "sigmatube/casefile/nearest_name.h"
 #include "sigmatube/model/builtin_models.h"
 #include "sigmatube/model/expression_model.h"
+#include "sigmatube/model/plugin_model.h"
 
 namespace sigmatube::model {
 namespace {
@@ -36,6 +37,7 @@ void check_physical(const BuiltinModel& model, const std::string& parameter, dou
 }  // namespace
 
 std::unique_ptr<Model> make_model(const casefile::ModelOptions& options) {
+  if (!options.plugin.empty()) return std::make_unique<PluginModel>(options);
   if (options.builtin.empty()) return std::make_unique<ExpressionModel>(options);
   auto model = make_builtin(options);
   const auto& names = model->parameter_names();

@@ -20,6 +20,26 @@ std::string trim(const std::string& s) {
   return s.substr(begin, end - begin + 1);
 }
 
+constexpr const char* kUtf8ByteOrderMark = "\xEF\xBB\xBF";
+
+// A cell as it can be read in a message: control bytes and bytes outside
+// ASCII shown as \xNN, at most 40 characters.
+std::string visible(const std::string& cell) {
+  std::string out;
+  for (unsigned char c : cell) {
+    if (out.size() >= 40) return out + "...";
+    if (c >= 0x20 && c < 0x7f) {
+      out += static_cast<char>(c);
+    } else {
+      static const char* digits = "0123456789ABCDEF";
+      out += "\\x";
+      out += digits[c >> 4];
+      out += digits[c & 15];
+    }
+  }
+  return out;
+}
+
 std::vector<std::string> split(const std::string& line) {
   std::vector<std::string> cells;
   std::string cell;
@@ -83,13 +103,15 @@ Plan::Plan(const casefile::PlanOptions& options, const Model& model) : interpola
   bool header_seen = false;
   while (std::getline(in, line)) {
     ++line_number;
+    // A UTF-8 byte-order mark (as some spreadsheet programs write) is not part of the header.
+    if (line_number == 1 && line.rfind(kUtf8ByteOrderMark, 0) == 0) line.erase(0, std::string(kUtf8ByteOrderMark).size());
     const std::string stripped = trim(line);
     if (stripped.empty() || stripped[0] == '#') continue;
     const auto cells = split(stripped);
     if (!header_seen) {
       header_seen = true;
       if (cells.empty() || cells[0] != "t")
-        throw fail(line_number, cells.empty() ? "1" : "'" + cells[0] + "'", "the first column must be 't' (time in seconds)");
+        throw fail(line_number, cells.empty() ? "1" : "'" + visible(cells[0]) + "'", "the first column must be 't' (time in seconds)");
       target.push_back(0);
       header = cells;
       for (std::size_t c = 1; c < cells.size(); ++c) {
@@ -100,7 +122,7 @@ Plan::Plan(const casefile::PlanOptions& options, const Model& model) : interpola
         if (s != states.end()) code = 1 + static_cast<int>(s - states.begin());
         else if (u != inputs.end()) code = -1 - static_cast<int>(u - inputs.begin());
         else
-          throw fail(line_number, "'" + name + "'",
+          throw fail(line_number, "'" + visible(name) + "'",
                      "names no state or input of model '" + model.name() + "'" + casefile::suggestion_or_list(name, known));
         if (std::find(target.begin(), target.end(), code) != target.end())
           throw fail(line_number, "'" + name + "'", "column repeated");

@@ -4,6 +4,7 @@
 #include <boost/math/distributions/normal.hpp>
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <stdexcept>
 
 #include "sigmatube/constraints/violation_statistics.h"
@@ -33,7 +34,7 @@ Eigen::VectorXd gradient(const LimitState& g, const Eigen::VectorXd& z, double h
 
 struct Partial {
   long long successful = 0, failed = 0, violations = 0;
-  double sum_wi = 0.0, sum_wi2 = 0.0, sum_w = 0.0, sum_w2 = 0.0;
+  double sum_wi = 0.0, sum_wi2 = 0.0, sum_wf = 0.0;
   std::vector<std::pair<long long, std::string>> failures;
 };
 }  // namespace
@@ -97,85 +98,103 @@ MostProbablePoint find_most_probable_point(const LimitState& g, int dimension, c
   return result;
 }
 
-ImportanceSamplingResult importance_sample(const Eigen::VectorXd& z_star, const ViolationIndicator& violated,
-                                           const ImportanceSamplingOptions& options) {
-  if (options.samples < 0 || options.chunk_size <= 0 || !violated || z_star.size() == 0) {
-    throw std::logic_error("importance_sample: bad options");
-  }
-  const long long n_samples = options.samples;
-  const long long chunk = options.chunk_size;
-  const Eigen::Index d = z_star.size();
-  const double half_beta2 = 0.5 * z_star.squaredNorm();
-  const CounterRng rng(options.seed + options.stream);
-  Partial total;
-  const long long n_chunks = (n_samples + chunk - 1) / chunk;
-  for (long long wave = 0; wave < n_chunks; wave += kChunksPerWave) {
-    const long long in_wave = std::min(kChunksPerWave, n_chunks - wave);
-    std::vector<Partial> partial(static_cast<std::size_t>(in_wave));
-    parallel_for(static_cast<std::size_t>(in_wave), options.threads, [&](std::size_t w) {
-      Partial& p = partial[w];
-      const long long begin = (wave + static_cast<long long>(w)) * chunk;
-      const long long end = std::min(n_samples, begin + chunk);
-      Eigen::VectorXd u(d);
-      for (long long i = begin; i < end; ++i) {
-        for (Eigen::Index j = 0; j < d; ++j) u[j] = rng.normal(static_cast<std::uint64_t>(i), static_cast<std::uint64_t>(j));
-        const Eigen::VectorXd z = z_star + u;
-        std::string error;
-        const int outcome = violated(z, i, &error);
-        if (outcome < 0) {
-          ++p.failed;
-          if (static_cast<int>(p.failures.size()) < options.reported_failures) {
-            p.failures.emplace_back(i, error.empty() ? "run failed (no message)" : error);
-          }
-          continue;
-        }
-        // w = φ(z)/φ(z − z*) = exp(−z*·z + ‖z*‖²/2) = exp(−z*·u − ‖z*‖²/2).
-        const double weight = std::exp(-z_star.dot(u) - half_beta2);
-        ++p.successful;
-        p.sum_w += weight;
-        p.sum_w2 += weight * weight;
-        if (outcome > 0) {
-          ++p.violations;
-          p.sum_wi += weight;
-          p.sum_wi2 += weight * weight;
-        }
-      }
-    });
-    for (auto& p : partial) {
-      total.successful += p.successful;
-      total.failed += p.failed;
-      total.violations += p.violations;
-      total.sum_wi += p.sum_wi;
-      total.sum_wi2 += p.sum_wi2;
-      total.sum_w += p.sum_w;
-      total.sum_w2 += p.sum_w2;
-      for (auto& f : p.failures) {
-        if (static_cast<int>(total.failures.size()) < options.reported_failures) total.failures.push_back(std::move(f));
-      }
-    }
-  }
+namespace {
+ImportanceSamplingResult finish(const Partial& total, long long n_samples, const Eigen::VectorXd& z_star,
+                                const ImportanceSamplingOptions& options) {
   ImportanceSamplingResult r;
   r.samples = n_samples;
   r.successful_samples = total.successful;
   r.failed_samples = total.failed;
-  r.first_failures = std::move(total.failures);
+  r.first_failures = total.failures;
   r.violations = total.violations;
   r.design_point = z_star;
-  const double n = static_cast<double>(total.successful);
+  const double n = static_cast<double>(total.successful + total.failed);
   if (total.successful == 0) {
     r.probability = r.standard_error = r.lower = r.upper = r.effective_sample_size = std::nan("");
+    r.coefficient_of_variation = r.pessimistic_probability = std::nan("");
     return r;
   }
   r.probability = total.sum_wi / n;
-  const double variance =
-      total.successful > 1 ? std::max(0.0, (total.sum_wi2 - n * r.probability * r.probability) / (n - 1.0)) : 0.0;
+  r.pessimistic_probability = (total.sum_wi + total.sum_wf) / n;
+  const double variance = n > 1.0 ? std::max(0.0, (total.sum_wi2 - n * r.probability * r.probability) / (n - 1.0)) : 0.0;
   r.standard_error = std::sqrt(variance / n);
   const boost::math::normal_distribution<double> normal(0.0, 1.0);
   const double z_level = boost::math::quantile(normal, 0.5 * (1.0 + options.confidence));
   r.lower = std::max(0.0, r.probability - z_level * r.standard_error);
   r.upper = r.probability + z_level * r.standard_error;
-  r.effective_sample_size = total.sum_w2 > 0.0 ? total.sum_w * total.sum_w / total.sum_w2 : 0.0;
+  r.effective_sample_size = total.sum_wi2 > 0.0 ? total.sum_wi * total.sum_wi / total.sum_wi2 : 0.0;
+  r.coefficient_of_variation =
+      r.probability > 0.0 ? r.standard_error / r.probability : std::numeric_limits<double>::infinity();
+  r.converged = options.cov_target > 0.0 && total.violations >= kMinimumViolations &&
+                r.coefficient_of_variation <= options.cov_target;
   return r;
+}
+}  // namespace
+
+ImportanceSamplingResult importance_sample(const Eigen::VectorXd& z_star, const ViolationIndicator& violated,
+                                           const ImportanceSamplingOptions& options) {
+  if (options.samples < 0 || options.chunk_size <= 0 || !violated || z_star.size() == 0 || options.batch_size <= 0 ||
+      options.cov_target < 0.0) {
+    throw std::logic_error("importance_sample: bad options");
+  }
+  const long long n_max = options.samples;
+  const long long chunk = options.chunk_size;
+  const Eigen::Index d = z_star.size();
+  const double half_beta2 = 0.5 * z_star.squaredNorm();
+  const CounterRng rng(options.seed + options.stream);
+  Partial total;
+  long long done = 0;
+  while (done < n_max) {
+    // Next batch [done, batch_end), cut into chunks of fixed size from `done`.
+    const long long batch_end = options.cov_target > 0.0 ? std::min(n_max, done + options.batch_size) : n_max;
+    const long long n_chunks = (batch_end - done + chunk - 1) / chunk;
+    for (long long wave = 0; wave < n_chunks; wave += kChunksPerWave) {
+      const long long in_wave = std::min(kChunksPerWave, n_chunks - wave);
+      std::vector<Partial> partial(static_cast<std::size_t>(in_wave));
+      parallel_for(static_cast<std::size_t>(in_wave), options.threads, [&](std::size_t w) {
+        Partial& p = partial[w];
+        const long long begin = done + (wave + static_cast<long long>(w)) * chunk;
+        const long long end = std::min(batch_end, begin + chunk);
+        Eigen::VectorXd u(d);
+        for (long long i = begin; i < end; ++i) {
+          for (Eigen::Index j = 0; j < d; ++j) u[j] = rng.normal(static_cast<std::uint64_t>(i), static_cast<std::uint64_t>(j));
+          const Eigen::VectorXd z = z_star + u;
+          // w = φ(z)/φ(z − z*) = exp(−z*·z + ‖z*‖²/2) = exp(−z*·u − ‖z*‖²/2).
+          const double weight = std::exp(-z_star.dot(u) - half_beta2);
+          std::string error;
+          const int outcome = violated(z, i, &error);
+          if (outcome < 0) {
+            ++p.failed;
+            p.sum_wf += weight;
+            if (static_cast<int>(p.failures.size()) < options.reported_failures) {
+              p.failures.emplace_back(i, error.empty() ? "run failed (no message)" : error);
+            }
+            continue;
+          }
+          ++p.successful;
+          if (outcome > 0) {
+            ++p.violations;
+            p.sum_wi += weight;
+            p.sum_wi2 += weight * weight;
+          }
+        }
+      });
+      for (auto& p : partial) {
+        total.successful += p.successful;
+        total.failed += p.failed;
+        total.violations += p.violations;
+        total.sum_wi += p.sum_wi;
+        total.sum_wi2 += p.sum_wi2;
+        total.sum_wf += p.sum_wf;
+        for (auto& f : p.failures) {
+          if (static_cast<int>(total.failures.size()) < options.reported_failures) total.failures.push_back(std::move(f));
+        }
+      }
+    }
+    done = batch_end;
+    if (options.cov_target > 0.0 && finish(total, done, z_star, options).converged) break;
+  }
+  return finish(total, done, z_star, options);
 }
 
 ImportanceSamplingResult importance_sample_constraint(const Eigen::VectorXd& z_star, const constraints::Constraint& constraint,

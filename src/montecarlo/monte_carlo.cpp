@@ -1,4 +1,5 @@
 // SPDX-License-Identifier: MIT
+#include "sigmatube/montecarlo/short_number.h"
 #include "sigmatube/montecarlo/monte_carlo.h"
 
 #include "sigmatube/core/running_moments.h"
@@ -24,20 +25,17 @@ struct Partial {
   explicit Partial(const std::vector<constraints::Constraint>& c, const Eigen::VectorXd& times, int n_out, long long max_n,
                    Eigen::Index columns)
       : stats(c, times, n_out, max_n), mean(Eigen::VectorXd::Zero(columns)), m2(Eigen::VectorXd::Zero(columns)),
-        squared_error(Eigen::VectorXd::Zero(n_out)) {}
+        squared_error(Eigen::VectorXd::Zero(columns)) {}
   constraints::ViolationStatistics stats;
   long long successful = 0, failed = 0, saturated = 0;
   Eigen::VectorXd mean, m2;       // per column of Y
-  Eigen::VectorXd squared_error;  // per output, summed over runs and times
+  Eigen::VectorXd squared_error;  // per column of Y, summed over runs
+  std::vector<PairedCounts> paired;
   std::vector<std::pair<long long, std::string>> failures;
 };
 
 
-std::string format_g(double value) {
-  char buffer[48];
-  std::snprintf(buffer, sizeof buffer, "%.3g", value);
-  return buffer;
-}
+std::string format_g(double value) { return short_number(value); }
 }  // namespace
 
 std::vector<SaturationLimit> saturation_limits(const std::vector<casefile::InputLimit>& limits,
@@ -63,7 +61,7 @@ std::string MonteCarloResult::summary() const {
   std::ostringstream out;
   out << "Monte Carlo: " << successful_runs << " of " << runs << " runs succeeded";
   if (failed_runs > 0) {
-    out << "; " << failed_runs << " failed and are excluded from every statistic";
+    out << "; " << failed_runs << " failed: excluded from moments and validation, counted as unknown in probabilities";
     for (const auto& [sample, message] : first_failures) out << "\n  run " << sample << ": " << message;
   }
   for (const auto& c : constraints) {
@@ -137,7 +135,7 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
       const Eigen::Index rows = end - begin;
       Eigen::MatrixXd Y = Eigen::MatrixXd::Zero(rows, columns);
       Eigen::MatrixXd xi(rows, d);
-      std::vector<std::uint8_t> keep(static_cast<std::size_t>(rows), 0);
+      std::vector<std::uint8_t> keep(static_cast<std::size_t>(rows), 0), saturated_row(static_cast<std::size_t>(rows), 0);
       std::vector<double> point(static_cast<std::size_t>(d)), outputs(static_cast<std::size_t>(columns));
       for (Eigen::Index r = 0; r < rows; ++r) {
         const long long sample = begin + r;
@@ -177,6 +175,7 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
           }
         }
         if (saturated) ++p.saturated;
+        saturated_row[static_cast<std::size_t>(r)] = saturated ? 1 : 0;
       }
       if (p.successful == 0) return;
       p.stats.add(Y, keep, begin);
@@ -190,11 +189,13 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
       }
       if (surrogate) {
         Eigen::MatrixXd xi_ok(p.successful, d), y_ok(p.successful, columns);
+        std::vector<std::uint8_t> saturated_ok(static_cast<std::size_t>(p.successful), 0);
         Eigen::Index k = 0;
         for (Eigen::Index r = 0; r < rows; ++r) {
           if (!keep[static_cast<std::size_t>(r)]) continue;
           xi_ok.row(k) = xi.row(r);
           y_ok.row(k) = Y.row(r);
+          saturated_ok[static_cast<std::size_t>(k)] = saturated_row[static_cast<std::size_t>(r)];
           ++k;
         }
         Eigen::MatrixXd values(p.successful, columns);
@@ -202,9 +203,8 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
         if (values.rows() != p.successful || values.cols() != columns) {
           throw std::logic_error("run_monte_carlo: surrogate returned values of the wrong shape");
         }
-        for (Eigen::Index c = 0; c < columns; ++c) {
-          p.squared_error[c % n_outputs] += (values.col(c) - y_ok.col(c)).squaredNorm();
-        }
+        for (Eigen::Index c = 0; c < columns; ++c) p.squared_error[c] += (values.col(c) - y_ok.col(c)).squaredNorm();
+        add_paired_runs(constraints, times, n_outputs, y_ok, values, saturated_ok, p.paired);
       }
     });
     for (auto& p : partial) {
@@ -214,6 +214,8 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
       total.failed += p.failed;
       total.saturated += p.saturated;
       total.squared_error += p.squared_error;
+      if (total.paired.size() < p.paired.size()) total.paired.resize(p.paired.size());
+      for (std::size_t k = 0; k < p.paired.size(); ++k) total.paired[k].merge(p.paired[k]);
       for (auto& f : p.failures) {
         if (static_cast<int>(total.failures.size()) < run_options.reported_failures) total.failures.push_back(std::move(f));
       }
@@ -252,6 +254,15 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
     c.path_violations = s.path_violations;
     c.path_probability = s.path_probability;
     c.path_interval = clopper_pearson(s.path_violations, n, options.confidence);
+    const long long all = n + total.failed;
+    c.path_interval_failures_safe = clopper_pearson(s.path_violations, all, options.confidence);
+    c.path_interval_failures_violating = clopper_pearson(s.path_violations + total.failed, all, options.confidence);
+    const double all_d = static_cast<double>(all);
+    c.pessimistic_path_probability = all > 0 ? static_cast<double>(s.path_violations + total.failed) / all_d : kNaN;
+    long long most = 0;
+    for (std::size_t t = 0; t < s.pointwise_violations.size(); ++t)
+      if (s.in_window[t]) most = std::max(most, s.pointwise_violations[t]);
+    c.pessimistic_pointwise_probability = all > 0 ? static_cast<double>(most + total.failed) / all_d : kNaN;
     result.constraints.push_back(std::move(c));
   }
   result.joint_violations = result.violations.joint_violations;
@@ -260,9 +271,16 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
   result.validated = static_cast<bool>(surrogate) && n > 0;
   result.validation_rmse.setConstant(n_outputs, kNaN);
   result.validation_relative_rmse.setConstant(n_outputs, kNaN);
+  result.validation_rmse_by_time.setConstant(T, n_outputs, kNaN);
   if (result.validated) {
+    result.paired = std::move(total.paired);
     for (int o = 0; o < n_outputs; ++o) {
-      const double rmse = std::sqrt(total.squared_error[o] / (nd * static_cast<double>(T)));
+      double summed = 0.0;
+      for (Eigen::Index t = 0; t < T; ++t) {
+        summed += total.squared_error[t * n_outputs + o];
+        result.validation_rmse_by_time(t, o) = std::sqrt(total.squared_error[t * n_outputs + o] / nd);
+      }
+      const double rmse = std::sqrt(summed / (nd * static_cast<double>(T)));
       double variance = 0.0, mean_square = 0.0;
       for (Eigen::Index t = 0; t < T; ++t) {
         const double s = std::isnan(result.std(t, o)) ? 0.0 : result.std(t, o);

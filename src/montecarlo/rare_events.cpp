@@ -38,6 +38,7 @@ RareEventEstimate rare_event_estimate(const germ::Germ& germ, const expansion::S
   is_options.seed = options.seed;
   is_options.confidence = options.confidence;
   is_options.threads = options.threads;
+  is_options.cov_target = options.cov_target;
   out.sampling = importance_sample_constraint(out.design_point.z, constraint, times, n_out,
                                               in_standard_normal_space(germ.specs(), run_sample), is_options);
   return out;
@@ -51,7 +52,7 @@ std::vector<std::optional<RareEventEstimate>> rare_events(const germ::Germ& germ
                                                           const RunSample& run_sample) {
   std::vector<std::optional<RareEventEstimate>> out(constraints.size());
   for (std::size_t k = 0; k < constraints.size(); ++k)
-    if (!(constraints[k].max_probability() > options.threshold))
+    if (!(constraints[k].max_probability() > options.threshold) && !(k < options.skip.size() && options.skip[k]))
       out[k] = rare_event_estimate(germ, surrogate, constraints[k], times, options, run_sample);
   return out;
 }

@@ -15,6 +15,7 @@
 #include "sigmatube/result/proportion_test.h"
 #include "sigmatube/result/summary_text.h"
 #include "sigmatube/result/text_table.h"
+#include "sigmatube/core/output_policy.h"
 
 namespace sigmatube::result {
 namespace {
@@ -116,7 +117,9 @@ void CompareOptions::validate() const {
 }
 
 CompareOptions read_budget(const std::string& path) {
-  if (!std::filesystem::exists(path)) throw InputError(SourceLocation{path, 0, ""}, "no such budget file");
+  const std::string problem = input_file_problem(path);
+  if (problem == "no such file") throw InputError(SourceLocation{path, 0, ""}, "no such budget file");
+  if (!problem.empty()) throw InputError(SourceLocation{path, 0, ""}, "budget file " + problem);
   toml::table root;
   try {
     root = toml::parse_file(path);
@@ -124,6 +127,7 @@ CompareOptions read_budget(const std::string& path) {
     throw InputError(SourceLocation{path, static_cast<int>(e.source().begin.line), ""}, std::string(e.description()));
   }
   CompareOptions o;
+  o.source = path;
   for (auto&& [key, node] : root) {
     const std::string k(key.str());
     if (k == "defaults") {
@@ -168,13 +172,36 @@ CompareOptions read_budget(const std::string& path) {
   return o;
 }
 
+// Every [constraint.<name>] entry of a budget must name a constraint of the
+// base or the candidate: a misspelt name would otherwise be ignored.
+void check_budget_names(const CompareOptions& o, const AnalysisResult& base, const AnalysisResult& candidate) {
+  std::vector<std::string> known;
+  for (const auto* r : {&base, &candidate})
+    for (const auto& c : r->constraints)
+      if (std::find(known.begin(), known.end(), c.name) == known.end()) known.push_back(c.name);
+  for (const auto* entries : {&o.max_probability_override, &o.max_increase_ratio_override,
+                              &o.max_absolute_increase_override, &o.min_margin_override})
+    for (const auto& [name, value] : *entries) {
+      if (std::find(known.begin(), known.end(), name) != known.end()) continue;
+      std::string list;
+      for (const auto& k : known) list += (list.empty() ? "" : ", ") + k;
+      throw InputError(SourceLocation{o.source, 0, "constraint." + name},
+                       "no constraint '" + name + "' in the base or the candidate result (they have: " +
+                           (list.empty() ? std::string("none") : list) + ")");
+    }
+}
+
 CompareReport compare_results(const AnalysisResult& base, const AnalysisResult& candidate, const CompareOptions& o) {
   o.validate();
+  check_budget_names(o, base, candidate);
   CompareReport report;
   report.base_label = label_of(base, "base");
   report.candidate_label = label_of(candidate, "candidate");
   report.base_sha256 = base.case_sha256;
   report.candidate_sha256 = candidate.case_sha256;
+  report.base_inputs_sha256 = base.inputs_sha256;
+  report.candidate_inputs_sha256 = candidate.inputs_sha256;
+  report.same_inputs = !base.inputs_sha256.empty() && base.inputs_sha256 == candidate.inputs_sha256;
   report.significance = o.significance;
 
   std::vector<std::string> names;
@@ -276,6 +303,14 @@ std::string compare_text(const CompareReport& report) {
     out << "  base case sha256       " << (report.base_sha256.empty() ? kMissingValue : report.base_sha256) << "\n"
         << "  candidate case sha256  " << (report.candidate_sha256.empty() ? kMissingValue : report.candidate_sha256)
         << "\n";
+  if (!report.base_inputs_sha256.empty() || !report.candidate_inputs_sha256.empty())
+    out << "  base inputs sha256     "
+        << (report.base_inputs_sha256.empty() ? kMissingValue : report.base_inputs_sha256) << "\n"
+        << "  cand. inputs sha256    "
+        << (report.candidate_inputs_sha256.empty() ? kMissingValue : report.candidate_inputs_sha256) << "\n";
+  if (report.same_inputs)
+    out << "  WARNING: base and candidate have the same inputs (case, plan and overrides); any change\n"
+           "  below comes from the seed or the run sizes alone, not from a new plan\n";
   out << "  one-sided significance " << format_value(report.significance) << "\n\n";
   TextTable table;
   table.header = {"constraint", "from",    "base P",      "candidate P",  "change", "allowed",
@@ -342,9 +377,12 @@ std::string compare_json(const CompareReport& report) {
   std::ostringstream o;
   o << "{\n  \"format\": \"sigmatube-compare\",\n  \"version\": 1,\n";
   o << "  \"base\": {\"label\": " << json_string(report.base_label)
-    << ", \"case_sha256\": " << json_string(report.base_sha256) << "},\n";
+    << ", \"case_sha256\": " << json_string(report.base_sha256)
+    << ", \"inputs_sha256\": " << json_string(report.base_inputs_sha256) << "},\n";
   o << "  \"candidate\": {\"label\": " << json_string(report.candidate_label)
-    << ", \"case_sha256\": " << json_string(report.candidate_sha256) << "},\n";
+    << ", \"case_sha256\": " << json_string(report.candidate_sha256)
+    << ", \"inputs_sha256\": " << json_string(report.candidate_inputs_sha256) << "},\n";
+  o << "  \"same_inputs\": " << (report.same_inputs ? "true" : "false") << ",\n";
   o << "  \"significance\": " << json_number(report.significance) << ",\n";
   o << "  \"regression\": " << (report.regression ? "true" : "false") << ",\n";
   o << "  \"exit_code\": " << (report.regression ? 1 : 0) << ",\n";

@@ -7,6 +7,7 @@
 #include <sstream>
 
 #include "sigmatube/core/error.h"
+#include "sigmatube/result/breakdown_report.h"
 #include "sigmatube/result/markup_escape.h"
 #include "sigmatube/result/number_format.h"
 #include "sigmatube/result/summary_text.h"
@@ -109,8 +110,8 @@ std::string tube_plot(const AnalysisResult& r, const ReportOptions& o) {
   const std::string xname = against_time ? "time [s]" : r.output_names[std::size_t(p.ix)];
   const std::string yname = r.output_names[std::size_t(p.iy)];
   SvgPlot plot("plot-tube", "Dispersion tube: " + yname + " vs " + xname, 900, 560);
-  plot.x_axis(xname);
-  plot.y_axis(yname);
+  plot.x_axis(against_time ? xname : output_label(r, p.ix));
+  plot.y_axis(output_label(r, p.iy));
   if (!against_time) plot.equal_aspect(true);
   auto xcol = [&](const Eigen::MatrixXd& m) { return against_time ? r.time : column(m, p.ix); };
 
@@ -210,10 +211,12 @@ std::string deviation_plot(const AnalysisResult& r, const ReportOptions& o) {
   SvgPlot plot("plot-tube-deviation", "Tube cross-section: deviation from the nominal path", 900, 340);
   plot.x_axis("time [s]");
   time_range(plot, r);
-  plot.y_axis("output − nominal");
   std::vector<int> axes;
   if (p.ix >= 0) axes.push_back(p.ix);
   axes.push_back(p.iy);
+  // The axis carries the outputs' unit when they share one.
+  const auto unit_suffix = [&](int j) { return output_label(r, j).substr(r.output_names[std::size_t(j)].size()); };
+  plot.y_axis("output − nominal" + (unit_suffix(axes.front()) == unit_suffix(p.iy) ? unit_suffix(p.iy) : ""));
   const int kept = std::min<int>(o.max_mc_runs, int(m.sample_outputs.size()));
   for (std::size_t a = 0; a < axes.size(); ++a) {
     const int j = axes[a];
@@ -235,6 +238,16 @@ std::string deviation_plot(const AnalysisResult& r, const ReportOptions& o) {
     }
     plot.band(r.time, lo, hi, SvgStyle{cc, 0.5, "", cc, 0.22}, name + ": mean ± 3σ");
     plot.line(r.time, mid, SvgStyle{cc, 1.8, "", "none"}, name + ": mean − nominal");
+  }
+  // The deterministic bound on ‖p − p_nominal‖ bounds each component of p too.
+  if (r.tube.done && std::size_t(r.tube.radius.size()) == T &&
+      std::all_of(axes.begin(), axes.end(), [&](int j) {
+        return index_of(r.tube.position, r.output_names[std::size_t(j)]) >= 0;
+      })) {
+    std::vector<double> lo(T), hi(T);
+    for (std::size_t t = 0; t < T; ++t) hi[t] = r.tube.radius[Eigen::Index(t)], lo[t] = -hi[t];
+    plot.line(r.time, hi, SvgStyle{kZone, 1.4, "2 2", "none"}, "deterministic bound ±r(t)");
+    plot.line(r.time, lo, SvgStyle{kZone, 1.4, "2 2", "none"}, "");
   }
   return plot.render();
 }
@@ -429,7 +442,7 @@ std::string summary_table(const AnalysisResult& r) {
   const int percent = int(std::lround(100 * r.montecarlo.confidence));
   o << "<table class=\"summary\">\n<thead><tr><th>constraint</th><th>type</th><th>scope</th><th>bound</th>"
     << "<th>surrogate P ± s.e.</th><th>Monte Carlo P [" << percent
-    << "% CI]</th><th>importance sampling P [CI], ESS</th>"
+    << "% CI]</th><th>importance sampling P [CI], ESS, CoV</th>"
     << "<th>margin</th><th>worst time [s]</th><th>Gaussian / "
        "Cantelli</th><th>agreement</th><th>verdict</th></tr></thead>\n<tbody>\n";
   for (const auto& c : r.constraints) {
@@ -455,17 +468,22 @@ std::string summary_table(const AnalysisResult& r) {
     }
     const auto& is = c.importance_sampling;
     cell(is.done ? format_probability(is.probability) + " [" + format_probability(is.interval[0]) + ", " +
-                       format_probability(is.interval[1]) + "], " + format_value(is.effective_sample_size, 3)
+                       format_probability(is.interval[1]) + "], " + format_value(is.effective_sample_size, 3) +
+                       (std::isnan(is.coefficient_of_variation)
+                            ? std::string()
+                            : ", CoV " + format_value(is.coefficient_of_variation, 2) +
+                                  (is.converged ? "" : " (target not met: no verdict)"))
                  : std::string(kMissingValue),
          "num");
     cell(format_value(c.margin), "num");
     cell(format_value(c.worst_time), "num");
-    int g = 0, ct = 0;
-    for (auto f : c.gaussian_ok) g += f ? 1 : 0;
-    for (auto f : c.cantelli_ok) ct += f ? 1 : 0;
+    // Counted over the report times in the window, like the text summary.
+    int g = 0, gt = 0, ct = 0, ctt = 0;
+    window_flag_counts(c, r.time, c.gaussian_ok, &g, &gt);
+    window_flag_counts(c, r.time, c.cantelli_ok, &ct, &ctt);
     cell(c.gaussian_ok.empty() ? std::string(kMissingValue)
-                               : std::to_string(g) + "/" + std::to_string(c.gaussian_ok.size()) + " · " +
-                                     std::to_string(ct) + "/" + std::to_string(c.cantelli_ok.size()),
+                               : std::to_string(g) + "/" + std::to_string(gt) + " · " + std::to_string(ct) + "/" +
+                                     std::to_string(ctt),
          "num");
     cell(
         c.agreement.empty() ? kMissingValue : c.agreement + (c.agreement_cause.empty() ? "" : ": " + c.agreement_cause),
@@ -508,6 +526,8 @@ std::string facts_table(const AnalysisResult& r) {
             (i >= 0 && std::size_t(i) < r.output_names.size() ? " (" + r.output_names[std::size_t(i)] + ")" : "") +
             (s.tolerance_met ? "" : " — tolerance NOT met"));
     for (const auto& line : s.karhunen_loeve) rows.emplace_back("Karhunen–Loève", line);
+    // What the build did: runs per refinement, retained indices, why it stopped.
+    for (const auto& note : s.notes) rows.emplace_back("surrogate build", note);
   } else {
     rows.emplace_back("surrogate", "none (nominal run only)");
   }
@@ -593,6 +613,10 @@ std::string html_report(const AnalysisResult& r, const ReportOptions& options) {
            "are drawn when their position outputs are the two axes; spheres appear as their projected circle.",
            "caption")
     << tube_plot(r, options) << deviation_plot(r, options);
+  {
+    const Plane plane = choose_plane(r, options);
+    o << breakdown_sections(r, plane.ix, plane.iy);
+  }
   o << "<h2>Violation probability</h2>\n" << probability_plot(r);
   o << "<h2>Clearance and margin</h2>\n"
     << paragraph(

@@ -38,6 +38,7 @@ std::string json_summary(const AnalysisResult& r) {
   o << "  \"title\": " << json_string(r.title) << ",\n";
   o << "  \"case_path\": " << json_string(r.case_path) << ",\n";
   o << "  \"case_sha256\": " << json_string(r.case_sha256) << ",\n";
+  o << "  \"inputs_sha256\": " << json_string(r.inputs_sha256) << ",\n";
   o << "  \"created_utc\": " << json_string(r.created_utc) << ",\n";
   o << "  \"tool_version\": " << json_string(r.tool_version) << ",\n";
   o << "  \"seed\": " << r.seed << ",\n";
@@ -106,7 +107,13 @@ std::string json_summary(const AnalysisResult& r) {
       o << "{\"path_probability\": " << json_number(c.montecarlo.path_probability)
         << ", \"path_violations\": " << c.montecarlo.path_violations
         << ", \"path_interval\": " << pair(c.montecarlo.path_interval)
-        << ", \"gate_probability\": " << json_number(montecarlo_gate_probability(c)) << "},\n";
+        << ", \"gate_probability\": " << json_number(montecarlo_gate_probability(c))
+        << ", \"pessimistic_probability\": " << json_number(c.montecarlo.pessimistic_probability)
+        << ", \"surrogate_only\": " << c.montecarlo.surrogate_only << ", \"model_only\": " << c.montecarlo.model_only
+        << ", \"paired_difference\": " << json_number(c.montecarlo.paired_difference)
+        << ", \"paired_interval\": " << pair(c.montecarlo.paired_interval)
+        << ", \"mcnemar_p\": " << json_number(c.montecarlo.mcnemar_p)
+        << ", \"holm_p\": " << json_number(c.montecarlo.holm_p) << "},\n";
     else
       o << "null,\n";
     const auto& is = c.importance_sampling;
@@ -115,7 +122,9 @@ std::string json_summary(const AnalysisResult& r) {
       o << "{\"runs\": " << is.runs << ", \"probability\": " << json_number(is.probability)
         << ", \"standard_error\": " << json_number(is.standard_error) << ", \"interval\": " << pair(is.interval)
         << ", \"effective_sample_size\": " << json_number(is.effective_sample_size)
-        << ", \"design_point_distance\": " << json_number(is.design_point_distance) << "},\n";
+        << ", \"design_point_distance\": " << json_number(is.design_point_distance)
+        << ", \"coefficient_of_variation\": " << json_number(is.coefficient_of_variation)
+        << ", \"converged\": " << boolean(is.converged) << "},\n";
     else
       o << "null,\n";
     o << "      \"margin\": " << json_number(c.margin) << ",\n";

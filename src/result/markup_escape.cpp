@@ -1,6 +1,8 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/result/markup_escape.h"
 
+#include <charconv>
+
 #include <cmath>
 #include <cstdio>
 
@@ -77,9 +79,10 @@ std::string json_string(const std::string& text) {
 
 std::string json_number(double v) {
   if (!std::isfinite(v)) return "null";
+  // Shortest digits that read back to the same double (0.95, not 0.94999999999999996).
   char buffer[64];
-  std::snprintf(buffer, sizeof buffer, "%.17g", v);
-  return buffer;
+  const auto end = std::to_chars(buffer, buffer + sizeof buffer, v).ptr;
+  return std::string(buffer, end);
 }
 
 }  // namespace sigmatube::result

@@ -13,6 +13,8 @@
 #include <sstream>
 
 #include "sigmatube/core/error.h"
+#include "sigmatube/core/output_policy.h"
+#include "sigmatube/core/sha256.h"
 
 namespace sigmatube::result {
 namespace {
@@ -20,6 +22,72 @@ namespace {
 namespace fs = std::filesystem;
 using RowMajorMatrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
 using IndexMatrix = Eigen::Matrix<int, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
+
+// ---------------------------------------------------------------- checksum
+//
+// The first kChecksumBlockBytes of a result file are an HDF5 user block (HDF5
+// itself never reads it). Once the HDF5 file is closed, seal() writes into it
+// the SHA-256 and length of every byte after it: all datasets, attributes and
+// HDF5 metadata, whatever groups other code adds. verify() checks both before
+// the HDF5 library parses anything, so a corrupted file never reaches it.
+
+constexpr hsize_t kChecksumBlockBytes = 512;
+constexpr const char* kChecksumMagic = "sigmatube result checksum v1\n";
+constexpr const char kHdf5Signature[8] = {'\x89', 'H', 'D', 'F', '\r', '\n', '\x1a', '\n'};
+
+std::string read_file_bytes(const std::string& path, const std::string& option) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) throw InputError(SourceLocation{path, 0, option}, std::string("cannot open: ") + std::strerror(errno));
+  std::ostringstream bytes;
+  bytes << in.rdbuf();
+  if (in.bad()) throw InputError(SourceLocation{path, 0, option}, "cannot read the file");
+  return bytes.str();
+}
+
+// The whole block, text then NUL padding: the only form verify() accepts.
+std::string checksum_block(const std::string& sha, unsigned long long length) {
+  std::string block = std::string(kChecksumMagic) + "sha256 " + sha + "\nbytes " + std::to_string(length) + "\n";
+  block.resize(kChecksumBlockBytes, '\0');
+  return block;
+}
+
+void seal(const std::string& path) {
+  std::string bytes = read_file_bytes(path, "-o");
+  if (bytes.size() < kChecksumBlockBytes) throw std::logic_error("seal: result file shorter than its checksum block");
+  const std::string body = bytes.substr(kChecksumBlockBytes);
+  const std::string block = checksum_block(sha256_hex(body), body.size());
+  std::fstream out(path, std::ios::binary | std::ios::in | std::ios::out);
+  out.seekp(0);
+  out.write(block.data(), static_cast<std::streamsize>(block.size()));
+  out.close();
+  if (!out) throw InputError(SourceLocation{path, 0, "-o"}, "cannot write the result file's checksum");
+}
+
+void verify(const std::string& path) {
+  const auto fail = [&](const std::string& what) { throw InputError(SourceLocation{path, 0, ""}, what); };
+  const std::string bytes = read_file_bytes(path, "");
+  const std::string magic(kChecksumMagic);
+  if (bytes.compare(0, magic.size(), magic) != 0) {
+    if (bytes.size() >= 8 && bytes.compare(0, 8, std::string(kHdf5Signature, 8)) == 0)
+      fail("an HDF5 file without a sigmatube checksum (not written by this version of sigmatube); not read");
+    fail("not a sigmatube result file (no sigmatube checksum block; not an HDF5 file written by sigmatube)");
+  }
+  if (bytes.size() < kChecksumBlockBytes) fail("corrupted result file: truncated inside its checksum block");
+  const std::string block = bytes.substr(magic.size(), kChecksumBlockBytes - magic.size());
+  std::istringstream fields(block.substr(0, block.find('\0')));
+  std::string sha_word, sha, bytes_word;
+  unsigned long long length = 0;
+  fields >> sha_word >> sha >> bytes_word >> length;
+  if (!fields || sha_word != "sha256" || bytes_word != "bytes" || sha.size() != 64 ||
+      bytes.compare(0, kChecksumBlockBytes, checksum_block(sha, length)) != 0)
+    fail("corrupted result file: its checksum block is damaged");
+  const std::size_t body = bytes.size() - kChecksumBlockBytes;
+  if (length != body)
+    fail("corrupted result file: " + std::to_string(body) + " bytes after the checksum block, the checksum covers " +
+         std::to_string(length) + (body < length ? " (truncated)" : ""));
+  if (sha256_hex(bytes.substr(kChecksumBlockBytes)) != sha)
+    fail("corrupted result file: the SHA-256 checksum does not match its contents (changed since it was written)");
+}
 
 // ---------------------------------------------------------------- writing
 
@@ -145,6 +213,101 @@ void write_surrogate(H5::H5File& file, const AnalysisResult& r) {
   write_strings(g, "notes", s.notes);
 }
 
+// A string-array attribute ([n], UTF-8).
+void write_attribute_strings(H5::H5Object& object, const std::string& name, const std::vector<std::string>& values) {
+  const H5::StrType type = utf8_string_type();
+  const hsize_t dims[1] = {values.size()};
+  H5::Attribute attribute = object.createAttribute(name, type, H5::DataSpace(1, dims));
+  std::vector<const char*> pointers;
+  for (const auto& v : values) pointers.push_back(v.c_str());
+  if (!pointers.empty()) attribute.write(type, pointers.data());
+}
+
+void write_attribute_doubles(H5::H5Object& object, const std::string& name, const std::vector<double>& values) {
+  const hsize_t dims[1] = {values.size()};
+  H5::Attribute attribute = object.createAttribute(name, H5::PredType::NATIVE_DOUBLE, H5::DataSpace(1, dims));
+  if (!values.empty()) attribute.write(H5::PredType::NATIVE_DOUBLE, values.data());
+}
+
+// Units [n_out] on a dataset whose last axis runs over the outputs.
+void write_units(H5::Group& group, const std::string& dataset, const AnalysisResult& r) {
+  if (r.output_units.size() != r.output_names.size() || !H5Lexists(group.getId(), dataset.c_str(), H5P_DEFAULT)) return;
+  H5::DataSet ds = group.openDataSet(dataset);
+  write_attribute_strings(ds, "units", r.output_units);
+}
+
+// Quantile tubes, variance shares per input, the deterministic tube and units
+// (docs/result-file.md).
+void write_breakdown(H5::H5File& file, const AnalysisResult& r) {
+  const hsize_t n_out = r.output_names.size();
+  {
+    H5::Group outputs = file.openGroup("/outputs");
+    write_units(outputs, "names", r);
+    H5::Group nominal = file.openGroup("/nominal");
+    write_units(nominal, "outputs", r);
+  }
+  const SurrogateResult& s = r.surrogate;
+  if (s.done) {
+    H5::Group g = file.openGroup("/surrogate");
+    write_units(g, "mean", r);
+    write_units(g, "std", r);
+    if (!s.quantiles.empty()) {
+      write_cube(g, "quantiles", s.quantiles, n_out, s.quantile_levels.size());
+      H5::DataSet ds = g.openDataSet("quantiles");
+      write_attribute_doubles(ds, "levels", s.quantile_levels);
+      write_attribute(ds, "samples", s.quantile_samples);
+      write_units(g, "quantiles", r);
+    }
+    if (!s.sobol_first_by_input.empty()) {
+      const hsize_t G = s.input_names.size();
+      write_strings(g, "input_names", s.input_names);
+      write_cube(g, "sobol_first_by_input", s.sobol_first_by_input, n_out, G);
+      write_cube(g, "sobol_total_by_input", s.sobol_total_by_input, n_out, G);
+      write_cube(g, "sobol_first_by_input_lower", s.sobol_first_by_input_lower, n_out, G);
+      write_cube(g, "sobol_first_by_input_upper", s.sobol_first_by_input_upper, n_out, G);
+      write_cube(g, "sobol_total_by_input_lower", s.sobol_total_by_input_lower, n_out, G);
+      write_cube(g, "sobol_total_by_input_upper", s.sobol_total_by_input_upper, n_out, G);
+      write_attribute(g, "sobol_confidence", s.sobol_confidence);
+    }
+  }
+  for (const auto& c : r.constraints) {
+    if (c.sobol_first_by_input.size() == 0) continue;
+    H5::Group g = file.openGroup("/constraints/" + c.name);
+    write_matrix(g, "sobol_first_by_input", c.sobol_first_by_input);
+    write_matrix(g, "sobol_total_by_input", c.sobol_total_by_input);
+    write_matrix(g, "sobol_first_by_input_lower", c.sobol_first_by_input_lower);
+    write_matrix(g, "sobol_first_by_input_upper", c.sobol_first_by_input_upper);
+    write_matrix(g, "sobol_total_by_input_lower", c.sobol_total_by_input_lower);
+    write_matrix(g, "sobol_total_by_input_upper", c.sobol_total_by_input_upper);
+  }
+  if (r.montecarlo.done) {
+    H5::Group g = file.openGroup("/montecarlo");
+    write_units(g, "mean", r);
+    write_units(g, "std", r);
+  }
+  const TubeResult& t = r.tube;
+  if (t.done) {
+    H5::Group g = file.createGroup("/tube");
+    write_vector(g, "radius", t.radius);
+    write_vector(g, "rate", t.rate);
+    write_matrix(g, "metric", t.metric);
+    H5::DataSet radius = g.openDataSet("radius");
+    const double finite_rate = t.rate.size() ? t.rate.minCoeff() : kNaN;
+    write_attribute(radius, "rate", finite_rate);
+    write_attribute(radius, "metric", t.metric_kind);
+    write_attribute_strings(radius, "assumptions", t.assumptions);
+    write_attribute(radius, "units", t.units);
+    write_attribute(g, "sigma", t.sigma);
+    write_attribute(g, "bounded", static_cast<long long>(t.bounded ? 1 : 0));
+    write_attribute(g, "no_bound_reason", t.no_bound_reason);
+    write_strings(g, "position", t.position);
+    write_scalar_int(g, "runs_checked", t.runs_checked);
+    write_scalar(g, "largest_observed_deviation", t.largest_observed_deviation);
+    write_scalar(g, "conservatism", t.conservatism);
+    write_scalar_int(g, "exceedances", t.exceedances);
+  }
+}
+
 void write_constraint(H5::Group& parent, const ConstraintResult& c) {
   H5::Group g = parent.createGroup(c.name);
   write_attribute(g, "type", c.type);
@@ -188,6 +351,11 @@ void write_constraint(H5::Group& parent, const ConstraintResult& c) {
     write_vector(gi, "interval", std::vector<double>{is.interval[0], is.interval[1]});
     write_scalar(gi, "effective_sample_size", is.effective_sample_size);
     write_scalar(gi, "design_point_distance", is.design_point_distance);
+    write_scalar(gi, "coefficient_of_variation", is.coefficient_of_variation);
+    write_scalar(gi, "cov_target", is.cov_target);
+    write_attribute(gi, "converged", static_cast<long long>(is.converged ? 1 : 0));
+    write_scalar_int(gi, "failed_runs", is.failed_runs);
+    write_scalar(gi, "pessimistic_probability", is.pessimistic_probability);
   }
 }
 
@@ -196,6 +364,9 @@ void write_montecarlo(H5::H5File& file, const AnalysisResult& r) {
   H5::Group g = file.createGroup("/montecarlo");
   write_attribute(g, "agreement", m.agreement);
   write_attribute(g, "agreement_cause", m.agreement_cause);
+  write_attribute(g, "agreement_details", m.agreement_details);
+  write_attribute(g, "false_alarm_level", m.false_alarm_level);
+  write_attribute(g, "relative_tolerance", m.relative_tolerance);
   write_attribute(g, "confidence", m.confidence);
   write_attribute_u64(g, "seed", m.seed);
   write_scalar_int(g, "runs", m.runs);
@@ -218,14 +389,31 @@ void write_montecarlo(H5::H5File& file, const AnalysisResult& r) {
     write_scalar(gi, "path_probability", c.montecarlo.path_probability);
     write_scalar_int(gi, "path_violations", c.montecarlo.path_violations);
     write_vector(gi, "path_interval", std::vector<double>{c.montecarlo.path_interval[0], c.montecarlo.path_interval[1]});
+    const MonteCarloConstraint& mc = c.montecarlo;
+    write_vector(gi, "path_interval_failures_safe",
+                 std::vector<double>{mc.path_interval_failures_safe[0], mc.path_interval_failures_safe[1]});
+    write_vector(gi, "path_interval_failures_violating",
+                 std::vector<double>{mc.path_interval_failures_violating[0], mc.path_interval_failures_violating[1]});
+    write_scalar(gi, "pessimistic_probability", mc.pessimistic_probability);
+    write_scalar_int(gi, "compared_runs", mc.compared_runs);
+    write_scalar_int(gi, "surrogate_only", mc.surrogate_only);
+    write_scalar_int(gi, "model_only", mc.model_only);
+    write_scalar_int(gi, "compared_time_index", mc.compared_time_index);
+    write_scalar(gi, "paired_difference", mc.paired_difference);
+    write_vector(gi, "paired_interval", std::vector<double>{mc.paired_interval[0], mc.paired_interval[1]});
+    write_scalar(gi, "mcnemar_p", mc.mcnemar_p);
+    write_scalar(gi, "holm_p", mc.holm_p);
   }
 }
 
 void write_all(const AnalysisResult& r, const std::string& path) {
   H5::Exception::dontPrint();
-  H5::H5File file(path, H5F_ACC_TRUNC);
+  H5::FileCreatPropList creation;
+  creation.setUserblock(kChecksumBlockBytes);  // the checksum block, filled by seal() once the file is closed
+  H5::H5File file(path, H5F_ACC_TRUNC, creation);
   write_attribute(file, "tool_version", r.tool_version);
   write_attribute(file, "case_sha256", r.case_sha256);
+  write_attribute(file, "inputs_sha256", r.inputs_sha256);
   write_attribute(file, "created_utc", r.created_utc);
   write_attribute_u64(file, "seed", r.seed);
   write_attribute(file, "title", r.title);
@@ -247,10 +435,16 @@ void write_all(const AnalysisResult& r, const std::string& path) {
     for (const auto& c : r.constraints) write_constraint(g, c);
   }
   if (r.montecarlo.done) write_montecarlo(file, r);
+  write_breakdown(file, r);
   file.close();
 }
 
 // ---------------------------------------------------------------- reading
+
+// Sizes no sigmatube result reaches; larger ones mean a damaged file.
+constexpr hsize_t kMaxElements = hsize_t{1} << 31;
+constexpr hsize_t kMaxStrings = hsize_t{1} << 20;
+constexpr std::size_t kMaxStringBytes = std::size_t{1} << 24;
 
 struct Reader {
   std::string path;
@@ -276,11 +470,29 @@ struct Reader {
     return d;
   }
 
+  // Element count of a dataset, refusing sizes no result file can have (the
+  // checksum makes this unreachable for files written by sigmatube).
+  hsize_t elements(const std::vector<hsize_t>& d, const std::string& name) const {
+    hsize_t n = 1;
+    for (hsize_t x : d) {
+      if (x != 0 && n > kMaxElements / x) fail("dataset '" + name + "' has an impossible size");
+      n *= x;
+    }
+    return n;
+  }
+
+  void require_class(const H5::DataSet& ds, H5T_class_t wanted, const std::string& name) const {
+    const H5T_class_t found = ds.getTypeClass();
+    const bool numeric = wanted == H5T_FLOAT || wanted == H5T_INTEGER;
+    if (found == wanted || (numeric && (found == H5T_FLOAT || found == H5T_INTEGER))) return;
+    fail("dataset '" + name + "' has the wrong type");
+  }
+
   std::vector<double> doubles(const H5::Group& g, const std::string& name, std::vector<hsize_t>* shape = nullptr) const {
     H5::DataSet ds = open(g, name);
+    require_class(ds, H5T_FLOAT, name);
     const auto d = dims(ds);
-    hsize_t n = 1;
-    for (hsize_t x : d) n *= x;
+    const hsize_t n = elements(d, name);
     std::vector<double> v(n);
     if (n > 0) ds.read(v.data(), H5::PredType::NATIVE_DOUBLE);
     if (shape) *shape = d;
@@ -295,6 +507,8 @@ struct Reader {
 
   long long scalar_int(const H5::Group& g, const std::string& name) const {
     H5::DataSet ds = open(g, name);
+    require_class(ds, H5T_INTEGER, name);
+    if (elements(dims(ds), name) != 1) fail("dataset '" + name + "' is not a scalar");
     long long value = 0;
     ds.read(&value, H5::PredType::NATIVE_LLONG);
     return value;
@@ -327,23 +541,32 @@ struct Reader {
 
   std::vector<std::uint8_t> flags(const H5::Group& g, const std::string& name) const {
     H5::DataSet ds = open(g, name);
+    require_class(ds, H5T_INTEGER, name);
     const auto d = dims(ds);
-    std::vector<std::uint8_t> v(d.empty() ? 1 : d[0]);
+    std::vector<std::uint8_t> v(d.empty() ? 1 : elements(d, name));
     if (!v.empty()) ds.read(v.data(), H5::PredType::NATIVE_UINT8);
     return v;
   }
 
+  // Variable-length strings: the memory type takes its character set from the
+  // file's; the type must be a variable-length string (a fixed-length or other
+  // type is refused instead of trusting a length from the file), and each
+  // string is copied up to kMaxStringBytes.
   std::vector<std::string> strings(const H5::Group& g, const std::string& name) const {
     H5::DataSet ds = open(g, name);
+    require_class(ds, H5T_STRING, name);
     const auto d = dims(ds);
     std::vector<std::string> out;
-    if (d.empty() || d[0] == 0) return out;
+    if (d.size() != 1) fail("dataset '" + name + "' is not a list of strings");
+    if (d[0] == 0) return out;
+    if (d[0] > kMaxStrings) fail("dataset '" + name + "' has an impossible size");
     H5::StrType file_type = ds.getStrType();
+    if (!file_type.isVariableStr()) fail("dataset '" + name + "' is not a variable-length string");
     H5::StrType memory_type(H5::PredType::C_S1, H5T_VARIABLE);
     memory_type.setCset(file_type.getCset());
     std::vector<char*> pointers(d[0], nullptr);
     ds.read(pointers.data(), memory_type);
-    for (char* p : pointers) out.emplace_back(p ? p : "");
+    for (char* p : pointers) out.emplace_back(p ? std::string(p, ::strnlen(p, kMaxStringBytes)) : std::string());
     H5::DataSpace space = ds.getSpace();
     H5Dvlen_reclaim(memory_type.getId(), space.getId(), H5P_DEFAULT, pointers.data());
     return out;
@@ -354,35 +577,78 @@ struct Reader {
   std::string attribute_string(const H5::H5Object& o, const std::string& name) const {
     if (!has_attribute(o, name)) return {};
     H5::Attribute a = o.openAttribute(name);
+    if (a.getTypeClass() != H5T_STRING) fail("attribute '" + name + "' is not a string");
+    if (a.getSpace().getSimpleExtentNpoints() != 1) fail("attribute '" + name + "' is not a single string");
     H5::StrType file_type = a.getStrType();
+    if (!file_type.isVariableStr()) fail("attribute '" + name + "' is not a variable-length string");
     H5::StrType memory_type(H5::PredType::C_S1, H5T_VARIABLE);
     memory_type.setCset(file_type.getCset());
     char* p = nullptr;
     a.read(memory_type, &p);
-    std::string value = p ? p : "";
+    std::string value = p ? std::string(p, ::strnlen(p, kMaxStringBytes)) : std::string();
     H5free_memory(p);
     return value;
+  }
+
+  H5::Attribute numeric_attribute(const H5::H5Object& o, const std::string& name) const {
+    H5::Attribute a = o.openAttribute(name);
+    const H5T_class_t c = a.getTypeClass();
+    if (c != H5T_FLOAT && c != H5T_INTEGER) fail("attribute '" + name + "' is not a number");
+    if (a.getSpace().getSimpleExtentNpoints() != 1) fail("attribute '" + name + "' is not a single number");
+    return a;
   }
 
   double attribute_double(const H5::H5Object& o, const std::string& name, double fallback) const {
     if (!has_attribute(o, name)) return fallback;
     double v = fallback;
-    o.openAttribute(name).read(H5::PredType::NATIVE_DOUBLE, &v);
+    numeric_attribute(o, name).read(H5::PredType::NATIVE_DOUBLE, &v);
     return v;
   }
 
   long long attribute_int(const H5::H5Object& o, const std::string& name, long long fallback) const {
     if (!has_attribute(o, name)) return fallback;
     long long v = fallback;
-    o.openAttribute(name).read(H5::PredType::NATIVE_LLONG, &v);
+    numeric_attribute(o, name).read(H5::PredType::NATIVE_LLONG, &v);
     return v;
   }
 
   unsigned long long attribute_u64(const H5::H5Object& o, const std::string& name) const {
     if (!has_attribute(o, name)) return 0;
     unsigned long long v = 0;
-    o.openAttribute(name).read(H5::PredType::NATIVE_ULLONG, &v);
+    numeric_attribute(o, name).read(H5::PredType::NATIVE_ULLONG, &v);
     return v;
+  }
+
+  std::vector<std::string> attribute_strings(const H5::H5Object& o, const std::string& name) const {
+    std::vector<std::string> out;
+    if (!has_attribute(o, name)) return out;
+    H5::Attribute a = o.openAttribute(name);
+    H5::DataSpace space = a.getSpace();
+    if (space.getSimpleExtentNdims() != 1) fail("attribute '" + name + "' is not a list of strings");
+    hsize_t n = 0;
+    space.getSimpleExtentDims(&n);
+    if (n == 0) return out;
+    H5::StrType file_type = a.getStrType();
+    if (!file_type.isVariableStr()) fail("attribute '" + name + "' is not a list of variable-length strings");
+    H5::StrType memory_type(H5::PredType::C_S1, H5T_VARIABLE);
+    memory_type.setCset(file_type.getCset());
+    std::vector<char*> pointers(n, nullptr);
+    a.read(memory_type, pointers.data());
+    for (char* p : pointers) out.emplace_back(p ? p : "");
+    H5Dvlen_reclaim(memory_type.getId(), space.getId(), H5P_DEFAULT, pointers.data());
+    return out;
+  }
+
+  std::vector<double> attribute_doubles(const H5::H5Object& o, const std::string& name) const {
+    std::vector<double> out;
+    if (!has_attribute(o, name)) return out;
+    H5::Attribute a = o.openAttribute(name);
+    H5::DataSpace space = a.getSpace();
+    const hssize_t n = space.getSimpleExtentNpoints();
+    if (n < 0) fail("attribute '" + name + "' has no size");
+    out.resize(static_cast<std::size_t>(n));
+    if (n > 0) a.read(H5::PredType::NATIVE_DOUBLE, out.data());
+    return out;
   }
 
   std::vector<std::string> children(const H5::Group& g) const {
@@ -399,6 +665,67 @@ void read_pair(const Reader& reader, const H5::Group& g, const std::string& name
   out[1] = v[1];
 }
 
+
+// The optional parts write_breakdown adds; absent in files of older versions.
+void read_breakdown(const Reader& reader, H5::H5File& file, AnalysisResult& r) {
+  H5::Group root = file.openGroup("/");
+  {
+    H5::DataSet names = file.openGroup("/outputs").openDataSet("names");
+    r.output_units = reader.attribute_strings(names, "units");
+    if (r.output_units.size() != r.output_names.size()) r.output_units.assign(r.output_names.size(), "");
+  }
+  if (r.surrogate.done) {
+    SurrogateResult& s = r.surrogate;
+    H5::Group g = file.openGroup("/surrogate");
+    if (Reader::exists(g, "quantiles")) {
+      s.quantiles = reader.cube(g, "quantiles");
+      H5::DataSet ds = g.openDataSet("quantiles");
+      s.quantile_levels = reader.attribute_doubles(ds, "levels");
+      s.quantile_samples = reader.attribute_int(ds, "samples", 0);
+    }
+    if (Reader::exists(g, "sobol_first_by_input")) {
+      s.input_names = reader.strings(g, "input_names");
+      s.sobol_first_by_input = reader.cube(g, "sobol_first_by_input");
+      s.sobol_total_by_input = reader.cube(g, "sobol_total_by_input");
+      s.sobol_first_by_input_lower = reader.cube(g, "sobol_first_by_input_lower");
+      s.sobol_first_by_input_upper = reader.cube(g, "sobol_first_by_input_upper");
+      s.sobol_total_by_input_lower = reader.cube(g, "sobol_total_by_input_lower");
+      s.sobol_total_by_input_upper = reader.cube(g, "sobol_total_by_input_upper");
+      s.sobol_confidence = reader.attribute_double(g, "sobol_confidence", kNaN);
+    }
+  }
+  for (auto& c : r.constraints) {
+    H5::Group g = file.openGroup("/constraints/" + c.name);
+    if (!Reader::exists(g, "sobol_first_by_input")) continue;
+    c.sobol_first_by_input = reader.matrix(g, "sobol_first_by_input");
+    c.sobol_total_by_input = reader.matrix(g, "sobol_total_by_input");
+    c.sobol_first_by_input_lower = reader.matrix(g, "sobol_first_by_input_lower");
+    c.sobol_first_by_input_upper = reader.matrix(g, "sobol_first_by_input_upper");
+    c.sobol_total_by_input_lower = reader.matrix(g, "sobol_total_by_input_lower");
+    c.sobol_total_by_input_upper = reader.matrix(g, "sobol_total_by_input_upper");
+  }
+  if (Reader::exists(root, "tube")) {
+    TubeResult& t = r.tube;
+    t.done = true;
+    H5::Group g = file.openGroup("/tube");
+    t.radius = reader.vector(g, "radius");
+    t.rate = reader.vector(g, "rate");
+    t.metric = reader.matrix(g, "metric");
+    H5::DataSet radius = g.openDataSet("radius");
+    t.metric_kind = reader.attribute_string(radius, "metric");
+    t.assumptions = reader.attribute_strings(radius, "assumptions");
+    t.units = reader.attribute_string(radius, "units");
+    t.sigma = reader.attribute_double(g, "sigma", kNaN);
+    t.bounded = reader.attribute_int(g, "bounded", 1) != 0;
+    t.no_bound_reason = reader.attribute_string(g, "no_bound_reason");
+    t.position = reader.strings(g, "position");
+    t.runs_checked = reader.scalar_int(g, "runs_checked");
+    t.largest_observed_deviation = reader.scalar(g, "largest_observed_deviation");
+    t.conservatism = reader.scalar(g, "conservatism");
+    t.exceedances = reader.scalar_int(g, "exceedances");
+  }
+}
+
 AnalysisResult read_all(const std::string& path) {
   H5::Exception::dontPrint();
   Reader reader{path};
@@ -408,6 +735,7 @@ AnalysisResult read_all(const std::string& path) {
   if (!root.attrExists("tool_version")) reader.fail("not a sigmatube result: no tool_version attribute");
   r.tool_version = reader.attribute_string(root, "tool_version");
   r.case_sha256 = reader.attribute_string(root, "case_sha256");
+  r.inputs_sha256 = reader.attribute_string(root, "inputs_sha256");
   r.created_utc = reader.attribute_string(root, "created_utc");
   r.seed = reader.attribute_u64(root, "seed");
   r.title = reader.attribute_string(root, "title");
@@ -437,6 +765,8 @@ AnalysisResult read_all(const std::string& path) {
       H5::DataSet ds = reader.open(g, "multi_indices");
       const auto d = reader.dims(ds);
       if (d.size() != 2) reader.fail("dataset 'multi_indices' is not two-dimensional");
+      reader.require_class(ds, H5T_INTEGER, "multi_indices");
+      (void)reader.elements(d, "multi_indices");
       s.multi_indices.resize(static_cast<Eigen::Index>(d[0]), static_cast<Eigen::Index>(d[1]));
       if (s.multi_indices.size() > 0) ds.read(s.multi_indices.data(), H5::PredType::NATIVE_INT);
     }
@@ -503,6 +833,13 @@ AnalysisResult read_all(const std::string& path) {
         read_pair(reader, gi, "interval", is.interval);
         is.effective_sample_size = reader.scalar(gi, "effective_sample_size");
         is.design_point_distance = reader.scalar(gi, "design_point_distance");
+        if (Reader::exists(gi, "coefficient_of_variation")) {
+          is.coefficient_of_variation = reader.scalar(gi, "coefficient_of_variation");
+          is.cov_target = reader.scalar(gi, "cov_target");
+          is.converged = reader.attribute_int(gi, "converged", 0) != 0;
+          is.failed_runs = reader.scalar_int(gi, "failed_runs");
+          is.pessimistic_probability = reader.scalar(gi, "pessimistic_probability");
+        }
       }
       r.constraints.push_back(std::move(c));
     }
@@ -514,6 +851,9 @@ AnalysisResult read_all(const std::string& path) {
     H5::Group g = file.openGroup("/montecarlo");
     m.agreement = reader.attribute_string(g, "agreement");
     m.agreement_cause = reader.attribute_string(g, "agreement_cause");
+    m.agreement_details = reader.attribute_string(g, "agreement_details");
+    m.false_alarm_level = reader.attribute_double(g, "false_alarm_level", kNaN);
+    m.relative_tolerance = reader.attribute_double(g, "relative_tolerance", kNaN);
     m.confidence = reader.attribute_double(g, "confidence", 0.95);
     m.seed = reader.attribute_u64(g, "seed");
     m.runs = reader.scalar_int(g, "runs");
@@ -537,36 +877,24 @@ AnalysisResult read_all(const std::string& path) {
       c.montecarlo.path_probability = reader.scalar(gi, "path_probability");
       c.montecarlo.path_violations = reader.scalar_int(gi, "path_violations");
       read_pair(reader, gi, "path_interval", c.montecarlo.path_interval);
+      if (Reader::exists(gi, "compared_runs")) {
+        auto& mc = c.montecarlo;
+        read_pair(reader, gi, "path_interval_failures_safe", mc.path_interval_failures_safe);
+        read_pair(reader, gi, "path_interval_failures_violating", mc.path_interval_failures_violating);
+        mc.pessimistic_probability = reader.scalar(gi, "pessimistic_probability");
+        mc.compared_runs = reader.scalar_int(gi, "compared_runs");
+        mc.surrogate_only = reader.scalar_int(gi, "surrogate_only");
+        mc.model_only = reader.scalar_int(gi, "model_only");
+        mc.compared_time_index = static_cast<int>(reader.scalar_int(gi, "compared_time_index"));
+        mc.paired_difference = reader.scalar(gi, "paired_difference");
+        read_pair(reader, gi, "paired_interval", mc.paired_interval);
+        mc.mcnemar_p = reader.scalar(gi, "mcnemar_p");
+        mc.holm_p = reader.scalar(gi, "holm_p");
+      }
     }
   }
+  read_breakdown(reader, file, r);
   return r;
-}
-
-std::string temporary_name(const std::string& path) {
-  std::ostringstream name;
-  name << path << ".tmp." << ::getpid();
-  return name.str();
-}
-
-// Moves a finished temporary file to its final name.
-void publish(const std::string& temporary, const std::string& path, bool force) {
-  if (force) {
-    if (std::rename(temporary.c_str(), path.c_str()) != 0) {
-      const int e = errno;
-      std::remove(temporary.c_str());
-      throw InputError(SourceLocation{path, 0, "-o"}, std::string("cannot write: ") + std::strerror(e));
-    }
-    return;
-  }
-  // link() fails with EEXIST if the name was taken: never replaces a file.
-  if (::link(temporary.c_str(), path.c_str()) != 0) {
-    const int e = errno;
-    std::remove(temporary.c_str());
-    if (e == EEXIST)
-      throw InputError(SourceLocation{path, 0, "-o"}, "file exists (use --force to overwrite)");
-    throw InputError(SourceLocation{path, 0, "-o"}, std::string("cannot write: ") + std::strerror(e));
-  }
-  std::remove(temporary.c_str());
 }
 
 }  // namespace
@@ -578,54 +906,55 @@ int AnalysisResult::verdict_exit_code() const {
   return exceeded ? 1 : 0;
 }
 
-void check_output_path(const std::string& path, bool force) {
-  if (path.empty()) throw InputError(SourceLocation{"", 0, "-o"}, "an output file name is required");
-  const fs::path p(path);
-  const fs::path folder = p.has_parent_path() ? p.parent_path() : fs::path(".");
-  if (!fs::is_directory(folder))
-    throw InputError(SourceLocation{path, 0, "-o"}, "folder '" + folder.string() + "' does not exist");
-  if (fs::exists(p) && !force)
-    throw InputError(SourceLocation{path, 0, "-o"}, "file exists (use --force to overwrite)");
-  if (fs::is_directory(p)) throw InputError(SourceLocation{path, 0, "-o"}, "is a folder");
+void check_output_path(const std::string& path, bool force, const std::string& option) {
+  OutputSet outputs(force);
+  outputs.output(path, option);
+  outputs.check();
+}
+
+void write_result_to(const AnalysisResult& result, const std::string& file) {
+  try {
+    write_all(result, file);
+    seal(file);
+  } catch (const H5::Exception& e) {
+    throw InputError(SourceLocation{file, 0, "-o"}, "cannot write result file: " + e.getDetailMsg());
+  }
 }
 
 void write_result_file(const AnalysisResult& result, const std::string& path, bool force) {
-  check_output_path(path, force);
-  const std::string temporary = temporary_name(path);
-  try {
-    write_all(result, temporary);
-  } catch (const H5::Exception& e) {
-    std::remove(temporary.c_str());
-    throw InputError(SourceLocation{path, 0, "-o"}, "cannot write result file: " + e.getDetailMsg());
-  } catch (...) {
-    std::remove(temporary.c_str());
-    throw;
-  }
-  publish(temporary, path, force);
+  OutputSet outputs(force);
+  outputs.output(path, "-o");
+  outputs.stage(path, [&](const std::string& temporary) { write_result_to(result, temporary); });
+  outputs.commit();
 }
 
 AnalysisResult read_result_file(const std::string& path) {
-  if (!fs::exists(path)) throw InputError(SourceLocation{path, 0, ""}, "no such file");
+  refuse_temporary_as_input(path, "");
+  const std::string problem = input_file_problem(path);
+  if (!problem.empty()) throw InputError(SourceLocation{path, 0, ""}, problem);
+  H5::Exception::dontPrint();
+  if (H5Fis_hdf5(path.c_str()) <= 0)
+    throw InputError(SourceLocation{path, 0, ""},
+                     "not a sigmatube result file (not HDF5; results are written by `run` and `simulate`)");
+  verify(path);
   try {
     return read_all(path);
   } catch (const H5::Exception& e) {
-    throw InputError(SourceLocation{path, 0, ""}, "cannot read result file: " + e.getDetailMsg());
+    std::string detail = e.getDetailMsg();
+    if (detail.size() > 200) detail = detail.substr(0, 200) + "...";
+    throw InputError(SourceLocation{path, 0, ""}, "cannot read result file: " + detail);
+  } catch (const std::bad_alloc&) {
+    throw InputError(SourceLocation{path, 0, ""}, "cannot read result file: a dataset is larger than memory allows");
+  } catch (const std::length_error&) {
+    throw InputError(SourceLocation{path, 0, ""}, "cannot read result file: a dataset has an impossible size");
   }
 }
 
 void write_text_file(const std::string& text, const std::string& path, bool force) {
-  check_output_path(path, force);
-  const std::string temporary = temporary_name(path);
-  {
-    std::ofstream out(temporary, std::ios::binary);
-    out << text;
-    out.close();
-    if (!out) {
-      std::remove(temporary.c_str());
-      throw InputError(SourceLocation{path, 0, ""}, "cannot write file");
-    }
-  }
-  publish(temporary, path, force);
+  OutputSet outputs(force);
+  outputs.output(path, "-o");
+  outputs.stage_text(path, text);
+  outputs.commit();
 }
 
 }  // namespace sigmatube::result

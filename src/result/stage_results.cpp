@@ -1,6 +1,9 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/result/stage_results.h"
 
+#include "sigmatube/montecarlo/verdict.h"
+#include "sigmatube/result/summary_text.h"
+
 #include <algorithm>
 #include <sstream>
 #include <string>
@@ -147,15 +150,70 @@ void add_cross_check(AnalysisResult& r, const montecarlo::CrossCheck& check, uns
   }
   const montecarlo::Agreement& agreement = check.agreement;
   m.agreement = montecarlo::to_string(agreement.overall);
-  m.agreement_cause = agreement.summary;
+  m.agreement_cause = agreement.cause;
+  m.agreement_details = agreement.summary;
   for (std::size_t k = 0; k < r.constraints.size(); ++k) {
-    r.constraints[k].agreement = montecarlo::to_string(agreement.constraints[k].verdict);
-    r.constraints[k].agreement_cause =
-        agreement.constraints[k].cause.empty() ? agreement.constraints[k].note : agreement.constraints[k].cause;
+    const montecarlo::ConstraintAgreement& a = agreement.constraints[k];
+    const montecarlo::ConstraintMonteCarlo& mcc = mc.constraints[k];
+    auto& c = r.constraints[k];
+    c.agreement = montecarlo::to_string(a.verdict);
+    c.agreement_cause = a.cause.empty() ? a.note : a.cause;
+    MonteCarloConstraint& out = c.montecarlo;
+    out.path_interval_failures_safe[0] = mcc.path_interval_failures_safe.lower;
+    out.path_interval_failures_safe[1] = mcc.path_interval_failures_safe.upper;
+    out.path_interval_failures_violating[0] = mcc.path_interval_failures_violating.lower;
+    out.path_interval_failures_violating[1] = mcc.path_interval_failures_violating.upper;
+    out.pessimistic_probability =
+        c.scope == "path" ? mcc.pessimistic_path_probability : mcc.pessimistic_pointwise_probability;
+    out.compared_runs = a.compared_runs;
+    out.surrogate_only = a.surrogate_only;
+    out.model_only = a.model_only;
+    out.compared_time_index = a.time_index;
+    out.paired_difference = a.difference.estimate;
+    out.paired_interval[0] = a.difference.lower;
+    out.paired_interval[1] = a.difference.upper;
+    out.mcnemar_p = a.mcnemar_p;
+    out.holm_p = a.holm_p;
   }
 }
 
-void add_rare_events(AnalysisResult& r, const std::vector<std::optional<montecarlo::RareEventEstimate>>& estimates) {
+std::vector<std::uint8_t> violation_shown(const AnalysisResult& r) {
+  std::vector<std::uint8_t> shown;
+  for (const auto& c : r.constraints)
+    shown.push_back(!c.within_bound || (c.has_montecarlo && c.montecarlo.pessimistic_probability > c.max_probability));
+  return shown;
+}
+
+void add_verdicts(AnalysisResult& r, double rare_event_threshold) {
+  if (!r.montecarlo.done) return;  // the surrogate's verdict is all there is
+  for (auto& c : r.constraints) {
+    montecarlo::BoundEvidence e;
+    e.max_probability = c.max_probability;
+    e.surrogate_probability = surrogate_gate_probability(c);
+    e.surrogate_within = c.within_bound;
+    e.has_montecarlo = c.has_montecarlo;
+    e.montecarlo_pessimistic = c.montecarlo.pessimistic_probability;
+    e.montecarlo_violations = c.scope == "path" || c.montecarlo.compared_time_index < 0
+                                  ? c.montecarlo.path_violations
+                                  : std::llround(c.montecarlo.pointwise_probability[c.montecarlo.compared_time_index] *
+                                                 static_cast<double>(r.montecarlo.runs - r.montecarlo.failed_runs));
+    e.montecarlo_failed = r.montecarlo.failed_runs;
+    e.montecarlo_runs = r.montecarlo.runs;
+    const ImportanceSamplingResult& is = c.importance_sampling;
+    if (is.done)
+      e.rare_event = montecarlo::RareEventEvidence{is.probability, is.pessimistic_probability, is.interval[0],
+                                                   is.interval[1], is.coefficient_of_variation,
+                                                   is.effective_sample_size, is.runs, is.converged};
+    const bool skipped = !is.done && !(c.max_probability > rare_event_threshold);
+    const montecarlo::BoundVerdict v = montecarlo::decide_bound(e, c.verdict);
+    c.within_bound = v.within;
+    c.verdict = v.line;
+    if (skipped) c.verdict += "; importance sampling not run: the violation is already shown";
+  }
+}
+
+void add_rare_events(AnalysisResult& r, const std::vector<std::optional<montecarlo::RareEventEstimate>>& estimates,
+                     double cov_target) {
   for (std::size_t k = 0; k < r.constraints.size() && k < estimates.size(); ++k) {
     if (!estimates[k]) continue;
     const montecarlo::ImportanceSamplingResult& is = estimates[k]->sampling;
@@ -169,14 +227,11 @@ void add_rare_events(AnalysisResult& r, const std::vector<std::optional<montecar
     out.interval[1] = is.upper;
     out.effective_sample_size = is.effective_sample_size;
     out.design_point_distance = estimates[k]->design_point.beta;
-    // The full-model estimate governs the verdict of a rare-event bound.
-    c.within_bound = out.probability <= c.max_probability;
-    std::ostringstream verdict;
-    verdict << (c.within_bound ? "meets " : "exceeds: ") << "importance sampling p = " << out.probability << " ["
-            << out.interval[0] << ", " << out.interval[1] << "] vs bound " << c.max_probability << " (" << out.runs
-            << " full-model runs, ESS " << static_cast<long long>(out.effective_sample_size)
-            << "); surrogate: " << c.verdict;
-    c.verdict = verdict.str();
+    out.coefficient_of_variation = is.coefficient_of_variation;
+    out.cov_target = cov_target;
+    out.converged = is.converged;
+    out.failed_runs = is.failed_samples;
+    out.pessimistic_probability = is.pessimistic_probability;
   }
 }
 

@@ -93,8 +93,10 @@ std::string worst_output(const AnalysisResult& r, const Eigen::VectorXd& v, doub
   return std::size_t(i) < r.output_names.size() ? r.output_names[std::size_t(i)] : "#" + std::to_string(i);
 }
 
-void flag_counts(const ConstraintResult& c, const std::vector<double>& time, const std::vector<std::uint8_t>& flags,
-                 int* ok, int* total) {
+}  // namespace
+
+void window_flag_counts(const ConstraintResult& c, const std::vector<double>& time,
+                        const std::vector<std::uint8_t>& flags, int* ok, int* total) {
   *ok = *total = 0;
   for (std::size_t k = 0; k < flags.size() && k < time.size(); ++k) {
     if (!in_window(c, time[k])) continue;
@@ -102,8 +104,6 @@ void flag_counts(const ConstraintResult& c, const std::vector<double>& time, con
     *ok += flags[k] ? 1 : 0;
   }
 }
-
-}  // namespace
 
 double surrogate_gate_probability(const ConstraintResult& c) {
   return c.scope == "path" ? c.path_probability : c.worst_pointwise_probability;
@@ -164,7 +164,11 @@ std::string exit_verdict_line(const AnalysisResult& r) {
            (names.empty() ? "" : "; bound exceeded by " + names);
   }
   if (code == 1) return "exit 1: bound exceeded by " + names;
+  if (r.command == "simulate") return "exit 0: nominal run only; constraints are checked by `run`";
   if (r.constraints.empty()) return "exit 0: no constraints to check";
+  if (r.montecarlo.done && r.montecarlo.agreement == "too few runs to tell")
+    return "exit 0: every constraint within its bound; the Monte Carlo cross-check had too few runs to confirm " +
+           std::string("the surrogate");
   return "exit 0: every constraint within its bound";
 }
 
@@ -173,6 +177,8 @@ std::string summary_text(const AnalysisResult& r, bool color) {
   out << paint("sigmatube result" + (r.title.empty() ? std::string() : ": " + r.title), kBold, color) << "\n";
   out << "  case         " << (r.case_path.empty() ? kMissingValue : r.case_path) << "\n";
   out << "  fingerprint  sha256 " << (r.case_sha256.empty() ? kMissingValue : r.case_sha256) << "\n";
+  out << "  inputs       sha256 " << (r.inputs_sha256.empty() ? kMissingValue : r.inputs_sha256)
+      << " (case, plan, overrides)\n";
   out << "  created      " << (r.created_utc.empty() ? kMissingValue : r.created_utc) << ", tool "
       << (r.tool_version.empty() ? kMissingValue : r.tool_version) << ", seed " << r.seed << ", command "
       << (r.command.empty() ? kMissingValue : r.command) << "\n";
@@ -292,21 +298,35 @@ std::string summary_text(const AnalysisResult& r, bool color) {
         out << "    tolerable radius " << format_value(c.tolerable_radius) << " (inflation "
             << format_value(c.radius_inflation) << ")\n";
       int gok = 0, gtot = 0, cok = 0, ctot = 0;
-      flag_counts(c, r.time, c.gaussian_ok, &gok, &gtot);
-      flag_counts(c, r.time, c.cantelli_ok, &cok, &ctot);
+      window_flag_counts(c, r.time, c.gaussian_ok, &gok, &gtot);
+      window_flag_counts(c, r.time, c.cantelli_ok, &cok, &ctot);
       if (gtot > 0 || ctot > 0)
         out << "    reformulations: Gaussian (mu - z*sigma >= 0) holds at " << gok << "/" << gtot
             << " window times, Cantelli (distribution-free) at " << cok << "/" << ctot << "\n";
       if (!c.reformulation_note.empty()) out << wrap(c.reformulation_note, 78, "    note: ");
-      if (c.has_montecarlo)
+      if (c.has_montecarlo) {
         out << "    Monte Carlo: " << c.montecarlo.path_violations << " path violations, agreement "
-            << (c.agreement.empty() ? kMissingValue : c.agreement)
-            << (c.agreement_cause.empty() ? std::string() : " (" + c.agreement_cause + ")") << "\n";
+            << (c.agreement.empty() ? kMissingValue : c.agreement) << "\n";
+        if (!c.agreement_cause.empty()) out << wrap(c.agreement_cause, 78, "      ");
+        if (r.montecarlo.failed_runs > 0 && !std::isnan(c.montecarlo.path_interval_failures_safe[0]))
+          out << "    failed runs are unknown: path P interval "
+              << interval_text(c.montecarlo.path_interval_failures_safe[0], c.montecarlo.path_interval_failures_safe[1])
+              << " if they were safe, "
+              << interval_text(c.montecarlo.path_interval_failures_violating[0],
+                               c.montecarlo.path_interval_failures_violating[1])
+              << " if they were violations (the verdict uses the latter)\n";
+      }
       if (c.importance_sampling.done) {
         const auto& is = c.importance_sampling;
         out << "    importance sampling: " << is.runs << " runs, P " << format_probability(is.probability) << " +/- "
             << format_probability(is.standard_error, 1) << ", ESS " << format_value(is.effective_sample_size, 4)
             << ", design point distance (beta) " << format_value(is.design_point_distance, 4) << "\n";
+        if (!std::isnan(is.coefficient_of_variation))
+          out << "      CoV " << format_value(is.coefficient_of_variation, 3) << " (target "
+              << format_value(is.cov_target, 3) << "): "
+              << (is.converged ? "met; the estimate takes part in the verdict"
+                               : "NOT met; no verdict from importance sampling")
+              << "\n";
       }
     }
   }
@@ -335,12 +355,34 @@ std::string summary_text(const AnalysisResult& r, bool color) {
                  : m.agreement == "agree"  ? kGreen
                                            : kReset,
                  color)
-        << (m.agreement_cause.empty() ? std::string() : ": " + indent_lines(m.agreement_cause, "               "))
         << "\n";
+    const std::string& details = m.agreement_details.empty() ? m.agreement_cause : m.agreement_details;
+    if (!details.empty()) out << "               " << indent_lines(details, "               ") << "\n";
   } else if (s.done) {
     out << "\n"
         << paint("No Monte Carlo cross-check was run: the surrogate numbers above are unconfirmed.", kYellow, color)
         << "\n";
+  }
+
+  const TubeResult& tube = r.tube;
+  if (tube.done) {
+    out << "\nDeterministic tube (worst case inside the input bounds, linearized loop)\n";
+    std::string position;
+    for (const auto& name : tube.position) position += (position.empty() ? "" : ", ") + name;
+    const std::string unit = tube.units.empty() ? "" : " " + tube.units;
+    out << "  position     " << position << "\n";
+    out << "  metric       " << tube.metric_kind << "\n";
+    if (tube.bounded && tube.radius.size() > 0)
+      out << "  radius       " << format_value(tube.radius[0]) << unit << " at the start, "
+          << format_value(tube.radius.maxCoeff()) << unit << " at most, rate >= "
+          << format_value(tube.rate.minCoeff()) << " 1/s\n";
+    else
+      out << "  radius       " << tube.no_bound_reason << "\n";
+    if (tube.runs_checked > 0)
+      out << "  check        " << tube.runs_checked << " Monte Carlo runs, " << tube.exceedances
+          << " (run, time) pairs above the bound; bound / largest deviation " << format_value(tube.conservatism)
+          << "\n";
+    for (const auto& a : tube.assumptions) out << "  assumes      " << a << "\n";
   }
 
   const int code = r.verdict_exit_code();

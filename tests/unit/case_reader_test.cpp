@@ -4,7 +4,9 @@
 // the expected line, dotted key, stage and a message fragment in its first line:
 //   # expect: line=12 key=uncertain[1].std stage=read message=must be > 0
 // stage=read: read_case must throw; stage=model: read_case succeeds and
-// validate_against_model (Hill–Clohessy–Wiltshire names, product.md §4) throws.
+// validate_against_model (Hill–Clohessy–Wiltshire names, product.md §4) throws;
+// stage=load: both succeed and app::load_case throws (limits and windows,
+// which need the plan: docs/case-file.md, "Limits").
 #include <gtest/gtest.h>
 
 #include <algorithm>
@@ -14,6 +16,7 @@
 #include <string>
 #include <vector>
 
+#include "sigmatube/app/case_loader.h"
 #include "sigmatube/casefile/case_reader.h"
 #include "sigmatube/casefile/case_validation.h"
 
@@ -184,7 +187,7 @@ void PrintTo(const BadCase& c, std::ostream* out) { *out << c.path; }
 
 std::vector<BadCase> load_bad_cases() {
   std::vector<BadCase> cases;
-  const std::regex header(R"(^# expect: line=(\d+) key=(\S*) stage=(read|model) message=(.+)$)");
+  const std::regex header(R"(^# expect: line=(\d+) key=(\S*) stage=(read|model|load) message=(.+)$)");
   for (const auto& entry : fs::directory_iterator(kSource + "/tests/bad_cases")) {
     if (entry.path().extension() != ".toml") continue;
     std::ifstream in(entry.path());
@@ -213,8 +216,10 @@ TEST_P(BadCaseFile, FailsWithOneLineMessageNamingFileLineAndKey) {
   bool thrown = false;
   try {
     const CaseOptions options = read_case(c.path);
-    ASSERT_EQ(c.stage, "model") << c.path << " was expected to fail in read_case";
+    ASSERT_NE(c.stage, "read") << c.path << " was expected to fail in read_case";
     validate_against_model(options, kHcwStates, kHcwInputs, kHcwParameters, kHcwStates);
+    ASSERT_EQ(c.stage, "load") << c.path << " was expected to fail in validate_against_model";
+    (void)app::load_case(c.path);
   } catch (const InputError& error) {
     thrown = true;
     const std::string what = error.what();

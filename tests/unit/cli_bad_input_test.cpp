@@ -11,31 +11,14 @@
 #include <string>
 #include <vector>
 
+#include "command_line.h"
+
 namespace {
 namespace fs = std::filesystem;
 
-struct CommandResult {
-  int exit_code = -1;
-  std::string stdout_text;
-  std::string stderr_text;
-};
-
-CommandResult run_command(const std::string& arguments) {
-  const fs::path err = fs::temp_directory_path() / ("sigmatube_cli_err_" + std::to_string(::getpid()));
-  const std::string command = std::string(SIGMATUBE_CLI) + " " + arguments + " 2>" + err.string();
-  CommandResult result;
-  FILE* pipe = ::popen(command.c_str(), "r");
-  if (!pipe) return result;
-  char buffer[4096];
-  std::size_t n;
-  while ((n = std::fread(buffer, 1, sizeof buffer, pipe)) > 0) result.stdout_text.append(buffer, n);
-  const int status = ::pclose(pipe);
-  result.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  std::ifstream in(err);
-  result.stderr_text.assign(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
-  fs::remove(err);
-  return result;
-}
+using sigmatube::testing::CommandResult;
+using sigmatube::testing::count_lines;
+using sigmatube::testing::run_command;
 
 std::vector<fs::path> bad_cases() {
   std::vector<fs::path> files;
@@ -43,13 +26,6 @@ std::vector<fs::path> bad_cases() {
     if (entry.path().extension() == ".toml") files.push_back(entry.path());
   std::sort(files.begin(), files.end());
   return files;
-}
-
-int count_lines(const std::string& text) {
-  int lines = 0;
-  for (char c : text) lines += c == '\n';
-  if (!text.empty() && text.back() != '\n') ++lines;
-  return lines;
 }
 
 TEST(CommandLineBadInput, AtLeastTwentyDistinctBadCasesExist) { EXPECT_GE(bad_cases().size(), 20u); }

@@ -9,6 +9,7 @@
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
+#include <fstream>
 #include <string>
 
 namespace {
@@ -101,6 +102,39 @@ TEST(CommandLineReference, CompareGatesARiskierPlanAndPassesTheSameOne) {
                               "').getroot(); print(len(r.findall('.//failure')), len(r.findall('.//testcase')))\"");
   EXPECT_EQ(failures.text, "1 1\n") << failures.text;
   fs::remove_all(base.parent_path());
+}
+
+// Issue 10, item 6: messages and exit codes. The HDF5 signature test is the library's
+// own H5Fis_hdf5 (HDF5 file format specification).
+TEST(CommandLineMessages, ShowOnATextFileSaysItIsNotAResultFile) {
+  const fs::path notes = scratch("notes.txt");
+  std::ofstream(notes) << "not a result\n";
+  const Output out = run(std::string(SIGMATUBE_CLI) + " show '" + notes.string() + "'");
+  EXPECT_EQ(out.exit_code, 2) << out.text;
+  EXPECT_NE(out.text.find("not a sigmatube result file (not HDF5"), std::string::npos) << out.text;
+  EXPECT_EQ(out.text.find("H5Fopen"), std::string::npos) << out.text;
+}
+
+TEST(CommandLineMessages, SimulateResultsAreNotComparedAndSimulateNamesNoMissingConstraints) {
+  const fs::path nominal = scratch("nominal.h5");
+  const std::string cli = std::string(SIGMATUBE_CLI);
+  const Output sim = run(cli + " simulate '" + std::string(SIGMATUBE_SOURCE_DIR) + "/tests/cases/hcw_minimal.toml' -o '" +
+                         nominal.string() + "' --force");
+  ASSERT_EQ(sim.exit_code, 0) << sim.text;
+  EXPECT_EQ(sim.text.find("no constraints to check"), std::string::npos) << sim.text;  // the case has constraints
+  EXPECT_NE(sim.text.find("exit 0: nominal run only"), std::string::npos) << sim.text;
+  const Output compare = run(cli + " compare '" + nominal.string() + "' '" + nominal.string() + "'");
+  EXPECT_EQ(compare.exit_code, 2) << compare.text;
+  EXPECT_NE(compare.text.find("result of `simulate`"), std::string::npos) << compare.text;
+}
+
+TEST(CommandLineMessages, ExistingJunitFileIsNamedByItsOption) {
+  const fs::path gate = scratch("gate.xml");
+  std::ofstream(gate) << "<old/>\n";
+  const Output out = run(std::string(SIGMATUBE_CLI) + " compare '" + scratch("a.h5").string() + "' '" +
+                         scratch("b.h5").string() + "' --junit '" + gate.string() + "'");
+  EXPECT_EQ(out.exit_code, 2) << out.text;
+  EXPECT_NE(out.text.find(": --junit: file exists"), std::string::npos) << out.text;
 }
 
 }  // namespace

@@ -487,6 +487,17 @@ TEST(GermBadInput, AsymmetricCovarianceIsRejected) {
   EXPECT_NE(message.find("not symmetric"), std::string::npos) << message;
 }
 
+TEST(GermBadInput, NumbersInMessagesArePrintedAsWritten) {
+  // 0.07 has no exact binary form; with 17 significant digits it would print
+  // 0.070000000000000007. The message shows the shortest digits that read back
+  // to the same double, i.e. the value as written in the case file.
+  auto u = position_entry();
+  u.covariance[0][1] = 0.07;
+  const std::string message = input_error_of([&] { Germ::build({u}, test_space()); });
+  EXPECT_NE(message.find("[1][0] = 0.06 but [0][1] = 0.07"), std::string::npos) << message;
+  EXPECT_EQ(message.find("00000"), std::string::npos) << message;
+}
+
 TEST(GermBadInput, UnknownTargetSuggestsTheNearestName) {
   auto u = entry("pos", "initial.vz", DistributionKind::normal);
   u.mean = {0.0};

@@ -3,8 +3,10 @@
 
 #include <gtest/gtest.h>
 
+#include <cstdio>
 #include <fstream>
 
+#include "python_reference.h"
 #include "result_fixture.h"
 #include "sigmatube/result/markup_escape.h"
 #include "sigmatube/result/result_file.h"
@@ -64,6 +66,26 @@ TEST(JsonNumber, WritesNonFiniteAsNullAndRoundTripsDoubles) {
   // 17 significant digits read back exactly (IEEE 754-2008 §5.12.2).
   const double v = 0.1 + 0.2;
   EXPECT_EQ(std::stod(json_number(v)), v);
+}
+
+TEST(JsonNumber, PrintsTheShortestDigitsThatReadBackExactly) {
+  // Reference: Python's repr of a float, the shortest string that round-trips
+  // (Python 3.1+ float repr), run through /usr/bin/python3 at test time; for
+  // these values (no integers, |v| < 1e16) it has the digits and form of
+  // std::to_chars' shortest round-trip output.
+  for (const double v : {0.1, 0.95, 8e-05, 3.41218e-05, 0.0018427397934059366, 9.8271789753288772, 0.1 + 0.2, -2.5e-300}) {
+    char code[128];
+    std::snprintf(code, sizeof code, "print(repr(%.17g))", v);
+    std::string expected = sigmatube::test::python_output(code);
+    ASSERT_FALSE(expected.empty()) << "python did not run";
+    while (!expected.empty() && (expected.back() == '\n' || expected.back() == '\r')) expected.pop_back();
+    EXPECT_EQ(json_number(v), expected);
+    EXPECT_EQ(std::stod(json_number(v)), v);
+  }
+  // Exact output, never a binary-float artefact (from the definition above).
+  EXPECT_EQ(json_number(0.95), "0.95");
+  EXPECT_EQ(json_number(8e-05), "8e-05");
+  EXPECT_EQ(json_number(20261201.0), "20261201");
 }
 
 TEST(JsonSummary, IsTheSameAfterARoundTripThroughTheResultFile) {

@@ -169,8 +169,31 @@ TEST(ReferencePipeline, RareEventImportanceSamplingCoversOneInAMillion) {
   EXPECT_GE(is.interval[1], exact);
   EXPECT_NEAR(is.design_point_distance, 4.753424, 1e-6);  // Hasofer–Lind β of a linear limit state
   EXPECT_TRUE(result.constraints.at(0).within_bound);     // 1e-6 ≤ bound 1e-5
+  EXPECT_TRUE(is.converged);                              // CoV ≤ the default target 0.1
+  EXPECT_LE(is.coefficient_of_variation, 0.1);
   std::printf("rare event: exact %.4e, IS %.4e [%.4e, %.4e], %lld runs, ESS %.0f, beta %.6f\n", exact, is.probability,
               is.interval[0], is.interval[1], is.runs, is.effective_sample_size, is.design_point_distance);
+}
+
+}  // namespace
+
+namespace {
+
+TEST(ReferencePipeline, StartInsideTheForbiddenHalfSpaceIsNeverWithin) {
+  // x ~ N(10, 1) and the wall at x = 4.753424: P(violation) = Φ(5.246576) ≈ 1 − 7.7e-8
+  // (closed form). Surrogate P = 1 and Monte Carlo 200 of 200 are evidence of violation
+  // that no rare-event estimate may overrule (issue 10): the bound 1e-5 is exceeded.
+  const auto loaded = load_case(reference_case("inside_forbidden.toml"));
+  const auto result = analyze_case(loaded, quiet_options());
+  const auto& c = result.constraints.at(0);
+  EXPECT_GT(c.path_probability, 0.999);
+  EXPECT_EQ(c.montecarlo.path_violations, 200);
+  EXPECT_FALSE(c.within_bound) << c.verdict;
+  EXPECT_NE(result.verdict_exit_code(), 0);
+  EXPECT_EQ(c.verdict.rfind("exceeds", 0), 0u) << c.verdict;
+  std::printf("inside forbidden: surrogate %.6f, MC %lld/200, IS %.3e (CoV %.3g), verdict: %s\n", c.path_probability,
+              c.montecarlo.path_violations, c.importance_sampling.probability,
+              c.importance_sampling.coefficient_of_variation, c.verdict.c_str());
 }
 
 }  // namespace

@@ -20,7 +20,8 @@ struct AnalysisOptions {
   // Rare events: importance sampling of the full model when a bound is at or
   // below this probability (and the Monte Carlo cross-check is on).
   double importance_sampling_threshold = 1e-4;
-  long long importance_sampling_runs = 4000;
+  // Most full-model runs per rare-event estimate; 0 = [montecarlo].rare_event_runs.
+  long long importance_sampling_runs = 0;
 };
 
 /// The nominal closed-loop run only (time, outputs, nominal outputs).

@@ -20,6 +20,10 @@ namespace sigmatube::app {
 struct LoadedCase {
   casefile::CaseOptions options;
   std::string case_sha256;  // of the case file's bytes
+  // Of everything the results depend on besides seeds and command-line sizes: the
+  // case file, every file it references (the plan) and the values a suite entry may
+  // override (runs, samples, bounds). See inputs_manifest().
+  std::string inputs_sha256;
   std::shared_ptr<const model::Model> model;
   std::unique_ptr<model::ClosedLoop> closed_loop;
   std::unique_ptr<germ::Germ> germ;
@@ -33,6 +37,12 @@ LoadedCase load_case(const std::string& path);
 /// applied, casefile::read_suite_case). `options.path` must name the case file:
 /// its bytes give case_sha256, and the plan was resolved against its folder.
 LoadedCase load_case(casefile::CaseOptions options);
+
+/// The text whose SHA-256 is inputs_sha256, one line each, in this order:
+///   "sigmatube inputs 1", "case <sha256 of the case file>", "plan <sha256 of the plan file>"
+///   (when the case names one), "montecarlo.runs <n>", "surrogate.samples <n>",
+///   "constraint.<name>.max_probability <%.17g>" per constraint in file order.
+std::string inputs_manifest(const casefile::CaseOptions& options);
 
 /// What `check` prints: model, dimensions, plan span, controller, uncertain
 /// inputs, constraints, and the number of model runs the design needs.

@@ -46,12 +46,17 @@ struct NamedValue {
 
 /// [model]: either a built-in (builtin non-empty) or an expression model.
 struct ModelOptions {
-  std::string builtin;                     // "" = expression model
+  std::string builtin;                     // "" = expression model (or plugin)
+  std::string plugin;                      // [model] plugin as written ("" = none)
+  std::string plugin_path;                 // resolved against the case file's folder
   std::vector<std::string> states;         // expression model only
   std::vector<std::string> inputs;         // expression model only
-  std::vector<NamedValue> parameters;      // built-in: overrides by name; expression: all parameters
+  std::vector<NamedValue> parameters;      // built-in, plugin: overrides by name; expression: all parameters
   std::vector<NamedExpression> rhs;        // expression model: d(state)/dt, one per state
   std::vector<NamedExpression> outputs;    // derived outputs, optional
+  // `units = { name = "unit", … }`: unit text per state, input or derived output
+  // (text = the unit); a built-in's own units apply where none is given.
+  std::vector<NamedExpression> units;
   SourceLocation where;
   KeyLocations key_where;
 };
@@ -180,7 +185,7 @@ struct ConstraintOptions {
   KeyLocations key_where;
 };
 
-enum class SurrogateMethod { sparse_grid, tensor_grid, regression };
+enum class SurrogateMethod { sparse_grid, tensor_grid, regression, adaptive_sparse_grid, sparse_regression };
 enum class RegressionDesign { sobol, latin_hypercube };
 
 /// How surrogate samples are drawn: "precision" — scrambled Sobol replicates
@@ -214,11 +219,47 @@ struct MonteCarloOptions {
   long long runs = 2000;                 // 0 disables the cross-check
   unsigned long long seed = 20261201ULL;
   double confidence = 0.95;              // two-sided, for Clopper–Pearson intervals
+  // Paired cross-check (montecarlo/agreement.h): family-wise false-alarm rate of the
+  // McNemar tests over all constraints (Holm), and the relative difference between
+  // surrogate and model probability that counts as practically relevant.
+  double false_alarm_level = 1e-3;
+  double relative_tolerance = 0.2;
+  // Rare events (importance sampling): target coefficient of variation and the most
+  // full-model runs spent per constraint to reach it.
+  double cov_target = 0.1;
+  long long rare_event_runs = 5000;
+  SourceLocation where;
+  KeyLocations key_where;
+};
+
+/// [tube]: the deterministic tube bound (model/deterministic_tube.h).
+struct TubeOptions {
+  std::vector<std::string> position;  // state names forming p
+  double sigma = 3.0;                 // unbounded inputs are cut at mean ± sigma·std (an assumption)
   SourceLocation where;
   KeyLocations key_where;
 };
 
 /// A whole case file.
+/// [limits]: sizes that `check` (and every command that reads the case)
+/// enforces before any work (docs/case-file.md, "Limits"). Each may be raised
+/// in the case file where a machine can afford it.
+struct LimitOptions {
+  long long max_samples = 1'000'000'000;    // [surrogate].samples (or --samples)
+  double max_sample_values = 1e12;          // samples × report times × outputs
+  long long max_runs = 10'000'000;          // model runs: surrogate design + Monte Carlo
+  long long max_report_times = 1'000'000;   // report times of one run
+  double max_steps = 1e8;                   // integration steps of one run: plan length / step
+  double max_memory_gib = 16.0;             // estimated peak memory of a run
+  SourceLocation where;
+  KeyLocations key_where;
+};
+
+/// Expressions (rhs, outputs, clearance): fixed limits, not overridable (they
+/// protect the expression compiler, whose recursion depth follows the nesting).
+constexpr std::size_t kMaxExpressionLength = 10'000;  // characters
+constexpr int kMaxExpressionDepth = 100;              // nested parentheses
+
 struct CaseOptions {
   std::string title;
   std::string path;  // the case file as given
@@ -230,6 +271,8 @@ struct CaseOptions {
   std::vector<ConstraintOptions> constraints;
   SurrogateOptions surrogate;
   MonteCarloOptions montecarlo;
+  std::optional<TubeOptions> tube;  // absent: no deterministic tube
+  LimitOptions limits;
 };
 
 }  // namespace sigmatube::casefile

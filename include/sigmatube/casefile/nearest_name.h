@@ -26,6 +26,10 @@ std::string nearest_name(const std::string& word, const std::vector<std::string>
 /// be appended to an error message.
 std::string did_you_mean(const std::string& word, const std::vector<std::string>& candidates);
 
+/// Letters, digits and `_`, not starting with a digit: the names an expression
+/// can use (states, inputs, parameters, outputs).
+bool is_identifier(std::string_view name);
+
 /// "a, b, c": the allowed values, for messages that list them.
 std::string join_names(const std::vector<std::string>& names);
 

@@ -20,6 +20,10 @@ namespace sigmatube::constraints {
 /// Columns t·n_out + o of every output the constraints read, at every report time.
 std::vector<int> constraint_columns(const std::vector<Constraint>& list, int n_times, int n_out);
 
+/// The surrogate's sampling stream must differ from the Monte Carlo stream of the
+/// same seed, or the cross-check would reuse the very germ points it checks.
+inline constexpr unsigned long long kSurrogateStream = 0x9E3779B97F4A7C15ULL;
+
 /// Surrogate samples per chunk: bounds memory at chunk × (T·n_out) doubles per thread.
 inline constexpr long long kSurrogateChunk = 2048;
 

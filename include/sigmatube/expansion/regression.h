@@ -41,6 +41,14 @@ RegressionProjection regression_projection(const std::vector<germ::FamilySpec>& 
 RegressionProjection regression_on_points(const std::vector<germ::FamilySpec>& families, const MultiIndexSet& indices,
                                           const Eigen::MatrixXd& points);
 
+/// Corrected leave-one-out mean squared error per column of Y, [n_columns]:
+///   T(P, N) · mean_i (r_i / (1 − h_i))²,  T = N/(N − P) · (1 + tr((ΨᵀΨ)⁻¹))
+/// (Chapelle, Vapnik & Bengio, Machine Learning 48, 2002; Blatman & Sudret,
+/// J. Comput. Phys. 230, 2011): an estimate of E[(f − f̂)²] that corrects the
+/// optimism of plain leave-one-out when P is not small against N.
+Eigen::VectorXd corrected_leave_one_out_mse(const RegressionProjection& projection, const Eigen::MatrixXd& values,
+                                            const Eigen::MatrixXd& coefficients);
+
 /// ε_LOO per column of Y, [n_columns], given C = W·Y.
 Eigen::VectorXd relative_leave_one_out_error(const RegressionProjection& projection, const Eigen::MatrixXd& values,
                                              const Eigen::MatrixXd& coefficients);

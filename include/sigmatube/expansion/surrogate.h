@@ -52,37 +52,49 @@ struct Surrogate {
   Eigen::MatrixXd sobol_total() const;
 };
 
+/// The case-file name of a method: "sparse-grid", "tensor-grid", "regression",
+/// "adaptive-sparse-grid", "sparse-regression".
+const char* method_name(casefile::SurrogateMethod method);
+/// The two methods that choose their own index set (always adaptive).
+bool is_dimension_adaptive(casefile::SurrogateMethod method);
+/// Covariance of the coefficients of every column of a linear fit C = W·Y:
+/// Cov(C[:, c]) = residual_variance[c] · gram (expansion/grouped_sobol.h).
+struct CoefficientCovariance {
+  Eigen::MatrixXd gram;                // W Wᵀ, [P, P]
+  Eigen::VectorXd residual_variance;   // σ̂²_c = ‖Y_c − Ψ C_c‖² / (N − P), [n_columns]; NaN when N ≤ P
+};
+
 /// How the surrogate build ended.
 struct SurrogateSummary {
-  std::string method;           // "sparse-grid", "tensor-grid", "regression"
-  int model_runs = 0;           // distinct model runs made
+  std::string method;           // method_name()
+  int model_runs = 0;           // distinct model runs made (hold-out runs included)
   int level_reached = 0;        // sparse-grid level, or 0
   int degree_reached = 0;       // basis total degree
   bool tolerance_met = true;    // every error estimate ≤ tolerance (also reported when not adaptive)
-  // Relative error estimate per output, [n_outputs]: the column estimates below
-  // pooled over report times with weights s_c² (norm ratios: √(Σ_t ‖ΔC_c‖²/Σ_t s_c²);
-  // LOO: Σ_t ε_c s_c² / Σ_t s_c²), the relative error of the whole time history. Per
-  // column c, with sd_c = √(Σ_{α≠0} C[α,c]²) and s_c = max(sd_c, 1e-9·(1 + |mean_c|))
-  // (the floor keeps constant outputs from dividing by ~0):
-  //   sparse grid:  ‖C_L[:,c] − C_{L−1}[:,c]‖₂ / s_c, the change from level L − 1
-  //                 (both projected on the union of their index sets); level 1 has
-  //                 no coarser level and reports NaN;
-  //   tensor grid, adaptive:     ‖C_p − C_{p−1}‖₂ / s_c, the change from degree p − 1;
-  //   tensor grid, not adaptive: ‖C[{α : |α| = p}, c]‖₂ / s_c, the weight of the
-  //                 highest total degree (no extra runs);
-  //   regression:   ε_LOO = mean_i(e_i²)/var(y), e_i = r_i/(1 − h_i), the relative
-  //                 leave-one-out error (Blatman & Sudret, J. Comput. Phys. 230, 2011;
-  //                 note it is a ratio of squares, the others ratios of norms).
+  std::vector<int> runs_per_refinement;        // runs in all after each refinement step (adaptive builds)
+  std::string stop_reason;                     // dimension-adaptive builds: why they stopped
+  std::vector<int> retained_degree_per_input;  // dimension-adaptive builds: highest degree per germ dimension
+  std::vector<int> retained_terms_per_input;   // … and the number of retained terms involving it
+  // Calibrated error estimate per output, [n_outputs]: the estimated relative
+  // root-mean-square error of the surrogate returned, on the scale of the Monte
+  // Carlo validation (RMSE over report times and germ points / √(mean_t s_t²)):
+  //   e_o = √( Σ_t MSE_{t,o} / Σ_t s_{t,o}² ),  s² = Σ_{α≠0} C[α, c]²,
+  // with MSE_{t,o} estimated
+  //   sparse-grid, tensor-grid, adaptive-sparse-grid: on hold-out runs (40 germ
+  //     points drawn from the germ distribution under a fixed seed, fewer when the
+  //     budget is short; none and NaN below 10);
+  //   regression, sparse-regression: by corrected leave-one-out (Blatman & Sudret,
+  //     J. Comput. Phys. 230, 2011; Chapelle, Vapnik & Bengio 2002), no extra runs.
   Eigen::VectorXd error_estimate;
   std::vector<std::string> notes;  // what happened, e.g. "run budget reached at level 4"
+  // Of the final fit, from its design runs (for confidence intervals of Sobol indices).
+  CoefficientCovariance covariance;
 };
 
 /// Number of distinct model runs the configured design needs (for `check`): the
 /// whole design when not adaptive, the first step when adaptive (the adaptive
-/// loop may then use up to max_model_runs). The sparse-grid count includes the
-/// level L − 1 points its error estimate needs (shared with level L for nested
-/// rules; extra runs for Gauss rules), the adaptive tensor-grid count the
-/// degree p − 1 grid. Throws InputError (keys "surrogate.max_model_runs",
+/// loop may then use up to max_model_runs). Sparse- and tensor-grid counts
+/// include the hold-out runs of the error estimate. Throws InputError (keys "surrogate.max_model_runs",
 /// "surrogate.nested", "surrogate.oversampling", "surrogate.level",
 /// "surrogate.degree", "surrogate.q_norm", "surrogate.tolerance", "uncertain"
 /// for an empty germ) when the design cannot be built.
@@ -97,7 +109,14 @@ int planned_model_runs(const std::vector<germ::FamilySpec>& families, const case
 ///   tensor-grid  full tensor Gauss with degree + 1 points per dimension, projected on
 ///                the total-degree / q-norm set (expansion/tensor_projection.h);
 ///   regression   least squares on ceil(oversampling·P) Sobol or Latin hypercube
-///                points (expansion/regression.h).
+///                points (expansion/regression.h);
+///   adaptive-sparse-grid  dimension-adaptive Smolyak pseudo-spectral projection on
+///                nested Leja rules (src/expansion/adaptive_sparse_grid.cpp);
+///   sparse-regression  degree-adaptive sparse regression by simultaneous orthogonal
+///                matching pursuit with corrected leave-one-out selection on a growing
+///                Sobol design (src/expansion/sparse_regression.cpp).
+/// The two dimension-adaptive methods always refine until tolerance or
+/// max_model_runs and end with the best surrogate and a note, never an error.
 /// Adaptive: starts at options.level (at least 2) or options.degree (at least 1)
 /// and raises it by one until every output's error estimate ≤ tolerance, or the
 /// next step would exceed max_model_runs (then tolerance_met = false and a note

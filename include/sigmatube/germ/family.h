@@ -22,7 +22,12 @@ struct FamilySpec {
   bool operator==(const FamilySpec&) const = default;
 };
 
+/// "hermite", "legendre", "jacobi(a=…, b=…)", "laguerre(a=…)"; the exponents in
+/// the shortest form that reads back exactly.
 std::string to_string(const FamilySpec& spec);
+/// The inverse of to_string (as stored in result files). Throws
+/// std::invalid_argument for any other text.
+FamilySpec family_from_string(const std::string& text);
 
 /// Map a standard normal z to the germ variable with the same CDF value
 /// (ξ = F⁻¹(Φ(z))); identity for hermite. Used for all sampling so that every

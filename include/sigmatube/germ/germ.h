@@ -90,6 +90,10 @@ class Germ {
   const std::vector<FamilySpec>& specs() const { return specs_; }
   const std::vector<std::string>& names() const { return names_; }
   const std::vector<KarhunenLoeveSummary>& karhunen_loeve() const { return kl_; }
+  /// The [[uncertain]] names in case-file order, and the germ dimensions of each
+  /// (one for a scalar input, one per component or Karhunen–Loève mode otherwise).
+  std::vector<std::string> input_names() const;
+  std::vector<std::vector<int>> input_dimensions() const;
 
   /// Writes the perturbation for germ point xi (dimension() values) into
   /// `perturbation`, which must start as closed_loop.nominal() (apply adds to

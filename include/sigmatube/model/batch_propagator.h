@@ -29,6 +29,8 @@
 // Layer model/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::model {
 
+class PluginModel;
+
 class BatchPropagator {
  public:
   /// `options` must be the case the closed loop was built from.
@@ -54,6 +56,7 @@ class BatchPropagator {
   casefile::SimulationOptions simulation_;
   bool supported_ = false;
   bool hcw_ = false;
+  const PluginModel* plugin_ = nullptr;  // a model plugin: its rhs takes all lanes at once
   std::vector<LaneExpression> programs_;  // per state, variables t, states, inputs, parameters
   Eigen::VectorXd input_low_, input_high_;
 };

@@ -23,6 +23,8 @@ class BuiltinModel : public Model {
   const std::vector<std::string>& parameter_names() const override { return parameter_names_; }
   const std::vector<std::string>& derived_output_names() const override { return no_outputs_; }
   Eigen::VectorXd parameters() const override { return parameters_; }
+  /// SI units of the states and inputs (docs/case-file.md, "Built-in models").
+  std::string unit(const std::string& name) const override;
   /// Replaces parameter `index` (parameter_names() order).
   void set_parameter(int index, double value) { parameters_(index) = value; }
 

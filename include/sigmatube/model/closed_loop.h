@@ -66,6 +66,8 @@ class ClosedLoop {
   /// so input limits and saturation can be checked.
   const std::vector<std::string>& output_names() const { return output_names_; }
   int output_count() const { return static_cast<int>(output_names_.size()); }
+  /// The unit of each output ("" when neither the case file nor the model gives one).
+  const std::vector<std::string>& output_units() const { return output_units_; }
 
   Perturbation nominal() const;
 
@@ -86,6 +88,7 @@ class ClosedLoop {
   casefile::SimulationOptions simulation_;
   std::vector<double> report_times_;
   std::vector<std::string> output_names_;
+  std::vector<std::string> output_units_;
   // saturation bounds per input (±inf where unlimited)
   Eigen::VectorXd input_low_, input_high_;
 };

@@ -47,6 +47,14 @@ class OdeIntegrator {
                  long long sample = -1, const std::vector<std::string>* state_names = nullptr);
 
   static constexpr double kDivergenceBound = 1e12;
+  /// rk4: more steps than this between two report times is refused (InputError
+  /// "simulation.step"; [limits].max_steps normally refuses it earlier).
+  static constexpr double kMaxStepsPerSpan = 1e15;
+  /// dopri5 stiffness watchdog: once a run has taken more than
+  /// max(kWatchdogMinimumSteps, kWatchdogFactor · plan length / step) steps, one
+  /// warning per process goes to stderr naming the run, the time, the step and the state.
+  static constexpr double kWatchdogFactor = 100.0;
+  static constexpr double kWatchdogMinimumSteps = 10000.0;
 
   /// Counters of the last integrate() call.
   long long steps_accepted() const { return accepted_; }
@@ -57,6 +65,7 @@ class OdeIntegrator {
   void integrate_rk4(const Rhs& f, const std::vector<double>& times, double* x, const Observer& observe);
   void integrate_dopri5(const Rhs& f, const std::vector<double>& times, double* x, const Observer& observe);
   void check_state(double t, const double* x) const;
+  void warn_stiff(double t, double plan_length, double h, double expected_steps, const double* x) const;
 
   casefile::SimulationOptions options_;
   int n_;

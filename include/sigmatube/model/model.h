@@ -40,6 +40,10 @@ class Model {
   virtual void jacobians(double t, const double* x, const double* u, const double* p, double* A,
                          double* B) const;
 
+  /// The unit of a state, input or derived output ("" when the model does not say).
+  /// Built-ins carry their own; a case file's [model] units override them.
+  virtual std::string unit(const std::string& name) const;
+
   /// y = g(t, x, u, p), derived_output_count() values. Default: none.
   virtual void derived_outputs(double t, const double* x, const double* u, const double* p, double* y) const;
 };

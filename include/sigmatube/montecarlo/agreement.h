@@ -1,34 +1,48 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 // Verdict of the Monte Carlo cross-check: does the surrogate tell the same story as
-// the full model? The rules, kept simple on purpose:
+// the full model? The surrogate is evaluated at the very germ points of the Monte
+// Carlo runs, so the comparison is paired (paired.h):
 //
-//   probability   per constraint, the governing probability (path probability for
-//                 scope = path; for scope = pointwise the pointwise probability at the
-//                 time where Monte Carlo saw the most violations in the window) agrees
-//                 when the surrogate value p_s lies in the Monte Carlo Clopper–Pearson
-//                 interval widened by `widen_standard_errors` surrogate standard errors:
-//                     lower − w·se_s ≤ p_s ≤ upper + w·se_s.
-//                 k = 0 Monte Carlo violations: the interval is [0, upper(0, n)] with
-//                 upper ≈ −ln(α/2)/n (≈ 3.7/n at 95%), the Monte Carlo resolution; the
-//                 same rule then reads "agree when p_s ≤ that resolution + w·se_s", i.e.
-//                 both are below what the runs can resolve.
-//   validation    the largest validation RMSE / output std (monte_carlo.h) over the
-//                 outputs must be ≤ max_relative_rmse (default 0.05, common practice
-//                 for a surrogate used for tail probabilities: 5% of the spread).
-//                 Not assessed when no surrogate evaluator was given.
-//   overall       agree when every constraint agrees and validation passes.
+//   per constraint   the 2×2 table of surrogate / model violations: path violations
+//                    for scope = path; for scope = pointwise the table at the time
+//                    where the model saw the most violations in the window.
+//                    b surrogate-only, c model-only, n compared runs,
+//                    p_S = (both + b)/n, p_M = (both + c)/n, d = p_S − p_M.
+//                    Exact McNemar p-value, Holm-adjusted over all constraints.
+//   disagree         Holm-adjusted p ≤ false_alarm_level (family-wise false-alarm
+//                    rate over the constraints) AND practically relevant:
+//                    |d| > relative_tolerance · p_M, or p_S and p_M lie on different
+//                    sides of the bound ε (the difference could flip the verdict).
+//   too few runs     not significant, and a relevant difference could not have been
+//                    detected: n·Δ < m_min, with Δ = max(relative_tolerance·max(p_S, p_M),
+//   to tell          |ε − max(p_S, p_M)|) the smallest difference that matters and m_min
+//                    the fewest one-sided discordant runs that can reach the first
+//                    Holm threshold false_alarm_level / m.
+//   agree            otherwise (significant but irrelevant differences included).
+//   validation       relative RMSE (monte_carlo.h) of the outputs the constraints read
+//                    must be ≤ max_relative_rmse (default 0.05, common practice for a
+//                    surrogate used for tail probabilities: 5 % of the spread); other
+//                    outputs only give a warning line naming output and worst time.
+//   overall          disagree when a constraint disagrees or the validation of a
+//                    constraint output fails; else too few runs to tell when a
+//                    constraint says so; else agree.
 //
-// Likely cause when they disagree, first match wins:
-//   "nonsmooth behaviour such as saturation"  saturation_fraction > 0 (some runs drove a
-//                                             commanded input past its limit)
-//   "degree too low"                          validation failed on smooth outputs
-//   "too few runs"                            interval half-width > max_half_width_ratio·ε
-//   "unexplained"                             none of the above
-// When they agree but the interval's half-width exceeds max_half_width_ratio·ε, the
-// note says the runs are too few to resolve the bound (the verdict stays agree).
+// Likely cause of a disagreement, named from evidence, first match wins:
+//   "nonsmooth behaviour such as saturation"  at least half the discordant runs
+//                                             drove a commanded input past its limit
+//   "nonsmooth behaviour such as a kink"      kurtosis of the path-minimum clearance
+//                                             error n·Σe⁴/(Σe²)² > 10 (a Gaussian error
+//                                             has 3; a fit across a kink errs strongly
+//                                             on few runs — a heuristic, common practice)
+//   "degree too low"                          validation of the constraint's outputs failed
+//   "tail misfit"                             the bulk fits but the violations do not
+// followed by the constraint output with the largest validation RMSE/std and the
+// report time where its RMSE is largest.
 #include <string>
 #include <vector>
+
+#include <Eigen/Core>
 
 #include "sigmatube/constraints/violation_statistics.h"
 #include "sigmatube/montecarlo/monte_carlo.h"
@@ -37,41 +51,57 @@
 namespace sigmatube::montecarlo {
 
 struct AgreementOptions {
-  double widen_standard_errors = 2.0;  // w above
-  double max_relative_rmse = 0.05;     // validation RMSE / std
-  double max_half_width_ratio = 1.0;   // "too few runs" when half-width > ratio · max_probability
+  double false_alarm_level = 1e-3;   // family-wise, Holm over constraints
+  double relative_tolerance = 0.2;   // |p_S − p_M| / p_M that is practically relevant
+  double max_relative_rmse = 0.05;   // validation RMSE / std
+  double kink_kurtosis = 10.0;       // clearance-error kurtosis above which a kink is named
+  // Output columns each constraint reads (same order as the constraints); outputs not
+  // read by any constraint only warn. Empty: every output decides.
+  std::vector<std::vector<int>> constraint_outputs;
+  std::vector<std::string> output_names;  // for messages; empty: "output <o>"
+  Eigen::VectorXd times;                  // report times in seconds, for messages
 };
 
-enum class Verdict { agree, disagree };
+enum class Verdict { agree, disagree, too_few_runs };
+/// "agree", "disagree", "too few runs to tell".
 std::string to_string(Verdict verdict);
 
 struct ConstraintAgreement {
   std::string name;
   Verdict verdict = Verdict::agree;
-  double surrogate_probability = 0.0;
-  double surrogate_standard_error = 0.0;
-  double montecarlo_probability = 0.0;
+  double surrogate_probability = 0.0;        // of the surrogate samples (the reported one)
+  double montecarlo_probability = 0.0;       // p_M on the compared runs
   long long montecarlo_violations = 0;
-  BinomialInterval montecarlo_interval;
-  int time_index = -1;       // pointwise scope: the time compared; −1 for path scope
-  std::string cause;         // empty when they agree
-  std::string note;          // one line for the report
+  BinomialInterval montecarlo_interval;      // Clopper–Pearson for p_M
+  int time_index = -1;                       // pointwise scope: the time compared; −1 for path scope
+  long long compared_runs = 0;
+  long long surrogate_only = 0, model_only = 0;
+  double surrogate_probability_on_runs = 0.0;  // p_S on the compared runs
+  PairedDifference difference;
+  double mcnemar_p = 1.0;
+  double holm_p = 1.0;
+  bool significant = false, relevant = false;
+  std::string cause;                         // empty unless they disagree
+  std::string note;                          // one line for the report
 };
 
 struct Agreement {
   Verdict overall = Verdict::agree;
   bool validation_assessed = false;
-  bool validation_ok = true;
-  double worst_relative_rmse = 0.0;
+  bool validation_ok = true;            // over the outputs that decide
+  double worst_relative_rmse = 0.0;     // over the outputs that decide
   int worst_output = -1;
+  std::vector<std::string> warnings;    // outputs no constraint reads that fail validation
   std::vector<ConstraintAgreement> constraints;
-  std::string summary;
+  std::string cause;                    // one line: why it disagrees / cannot tell; empty when agree
+  std::string summary;                  // several lines
 };
 
 /// @param surrogate   violation statistics of the surrogate samples (same constraints, same order)
-/// @param saturation_fraction  fraction of Monte Carlo runs that saturated an input
+/// @param montecarlo  with paired counts (a surrogate evaluator was given); without them the
+///                    constraints are "too few runs to tell" and the validation is not assessed
 /// @throws std::logic_error when the constraint lists differ.
 Agreement assess_agreement(const constraints::ViolationResults& surrogate, const MonteCarloResult& montecarlo,
-                           double saturation_fraction, const AgreementOptions& options = {});
+                           const AgreementOptions& options = {});
 
 }  // namespace sigmatube::montecarlo

@@ -25,11 +25,14 @@ struct CrossCheck {
 
 /// run_monte_carlo with `surrogate` as the validated evaluator, then
 /// assess_agreement against the surrogate's own violation statistics
-/// (`surrogate_violations`, same constraints in the same order).
+/// (`surrogate_violations`, same constraints in the same order). The agreement's
+/// constraint outputs and report times are filled in from `constraints` and `times`
+/// when `agreement_options` leaves them empty.
 CrossCheck cross_check(const casefile::MonteCarloOptions& options, const std::vector<germ::FamilySpec>& families,
                        const Eigen::VectorXd& times_in_seconds, int n_outputs,
                        const std::vector<constraints::Constraint>& constraints, const RunSample& run_sample,
                        const MonteCarloRunOptions& run_options, const expansion::Surrogate& surrogate,
-                       const constraints::ViolationResults& surrogate_violations, const Progress& progress = nullptr);
+                       const constraints::ViolationResults& surrogate_violations, const Progress& progress = nullptr,
+                       AgreementOptions agreement_options = {});
 
 }  // namespace sigmatube::montecarlo

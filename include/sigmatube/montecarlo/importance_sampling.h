@@ -17,12 +17,19 @@
 // Importance sampling (proposal N(z*, I)): sample i uses
 //     z_i = z* + u_i,  u_ij = CounterRng(seed + stream).normal(i, j),
 //     w_i = φ(z_i)/φ(z_i − z*) = exp(−z*·z_i + ‖z*‖²/2),
-//     p̂ = (1/n) Σ w_i 1[violation_i],
-//     se = s/√n with s² the sample variance of w_i 1[violation_i],
-//     interval p̂ ± Φ⁻¹((1 + confidence)/2)·se, clipped at 0 (normal approximation:
-//         it is only trustworthy when the effective sample size is large),
-//     ESS = (Σ w_i)² / Σ w_i² over all samples.
-// Failed runs are counted and excluded (n counts the successful runs).
+//     p̂ = (1/N) Σ w_i 1[violation_i]   over all N runs (a failed run counts safe here),
+//     p̂⁺ = (1/N) Σ w_i (1[violation_i] + 1[failed_i])   (failed runs counted as violations),
+//     se = s/√N with s² the sample variance of w_i 1[violation_i],
+//     CoV = se/p̂ (the estimator's coefficient of variation; +∞ when p̂ = 0),
+//     interval p̂ ± Φ⁻¹((1 + confidence)/2)·se, clipped at 0 (normal approximation),
+//     ESS = (Σ_viol w_i)² / Σ_viol w_i², Kish's effective sample size (L. Kish, Survey
+//         Sampling, Wiley 1965) of the violating runs' weights: the number of equally
+//         weighted violations the estimate rests on (≈ 1/CoV² for large N). One
+//         dominant weight gives ESS ≈ 1 and an interval that cannot be trusted.
+// Adaptive: runs go in batches of `batch_size` (sample indices 0, 1, … in order) until
+// CoV ≤ cov_target with at least kMinimumViolations = 10 violations (common practice
+// for the normal approximation), or `samples` runs are spent; `converged` says which.
+// cov_target = 0 runs exactly `samples` runs.
 // Chunks of fixed size are merged in chunk order: bit-identical for any thread count.
 #include <functional>
 #include <optional>
@@ -74,10 +81,14 @@ struct ImportanceSamplingOptions {
   long long chunk_size = 64;
   int threads = 0;
   int reported_failures = 5;
+  double cov_target = 0.0;       // 0: no early stop
+  long long batch_size = 500;    // runs between convergence checks
 };
 
+inline constexpr long long kMinimumViolations = 10;
+
 struct ImportanceSamplingResult {
-  long long samples = 0;             // requested
+  long long samples = 0;             // run (≤ the requested maximum)
   long long successful_samples = 0;
   long long failed_samples = 0;
   std::vector<std::pair<long long, std::string>> first_failures;
@@ -85,7 +96,10 @@ struct ImportanceSamplingResult {
   double probability = 0.0;
   double standard_error = 0.0;
   double lower = 0.0, upper = 0.0;   // normal approximation, lower clipped at 0
-  double effective_sample_size = 0.0;
+  double effective_sample_size = 0.0;  // Kish, over the violating runs' weights
+  double coefficient_of_variation = 0.0;
+  double pessimistic_probability = 0.0;  // failed runs counted as violations
+  bool converged = false;              // CoV target met (always false without a target)
   Eigen::VectorXd design_point;
 };
 

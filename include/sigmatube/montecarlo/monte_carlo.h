@@ -9,7 +9,11 @@
 // merged in chunk order, so every number is bit-identical for any thread count.
 //
 // Failed runs (run_sample returns false) are counted, their first messages kept,
-// and they are excluded from every statistic — never dropped silently.
+// and they are excluded from the moments and the validation — never dropped
+// silently. For probabilities a failed run is unknown: each constraint carries its
+// interval both ways over all N = successful + failed runs, Clopper–Pearson for
+// k of N (failures counted safe) and for k + f of N (failures counted as
+// violations); the pessimistic estimate (k + f)/N is what a verdict uses.
 //
 // Statistics over the n successful runs:
 //   mean, std             per [T, n_out], std with n − 1
@@ -22,6 +26,9 @@
 //                         and RMSE_o / s_o with s_o = √(mean_t σ²_{t,o}) (the output's
 //                         RMS standard deviation over time; 1e-12·max(1, RMS|mean|) is
 //                         used instead when the output does not vary)
+//   validation by time    RMSE_{t,o} = √(Σ_i (ŷ − y)² / n), to name the worst time
+//   paired counts         with a surrogate: per constraint the 2×2 table of surrogate
+//                         and model violations on the same runs (paired.h)
 //   saturation            runs where any commanded input left its [low, high] limit
 #include <cstdint>
 #include <functional>
@@ -36,6 +43,7 @@
 #include "sigmatube/constraints/violation_statistics.h"
 #include "sigmatube/germ/family.h"
 #include "sigmatube/montecarlo/clopper_pearson.h"
+#include "sigmatube/montecarlo/paired.h"
 
 // Layer montecarlo/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::montecarlo {
@@ -85,6 +93,10 @@ struct ConstraintMonteCarlo {
   long long path_violations = 0;
   double path_probability = 0.0;
   BinomialInterval path_interval;
+  // Over all N runs, failed runs counted safe / counted as violations.
+  BinomialInterval path_interval_failures_safe, path_interval_failures_violating;
+  double pessimistic_path_probability = 0.0;       // (k + f)/N
+  double pessimistic_pointwise_probability = 0.0;  // max over window times of (k_t + f)/N
 };
 
 struct MonteCarloResult {
@@ -102,6 +114,8 @@ struct MonteCarloResult {
   bool validated = false;                // a surrogate evaluator was given
   Eigen::VectorXd validation_rmse;       // [n_out]
   Eigen::VectorXd validation_relative_rmse;  // [n_out]
+  Eigen::MatrixXd validation_rmse_by_time;   // [T, n_out]
+  std::vector<PairedCounts> paired;          // per constraint, when validated
   long long saturated_runs = 0;
   double saturation_fraction = 0.0;      // saturated / successful
   Eigen::MatrixXd kept_outputs;          // [K, T·n_out]; failed runs are NaN rows

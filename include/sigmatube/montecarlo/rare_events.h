@@ -1,5 +1,6 @@
 // SPDX-License-Identifier: MIT
 #pragma once
+#include <cstdint>
 // The rare-event stage of an analysis: a crude Monte Carlo of a few thousand
 // runs cannot resolve a bound ≤ 1e-4, so for such a constraint the design point
 // is found on the surrogate (find_most_probable_point, started from the closest
@@ -21,10 +22,14 @@ namespace sigmatube::montecarlo {
 
 struct RareEventOptions {
   double threshold = 1e-4;   // constraints with max_probability ≤ threshold get an estimate
-  long long samples = 4000;  // full-model importance-sampling runs per constraint
+  long long samples = 5000;  // most full-model importance-sampling runs per constraint
   unsigned long long seed = 0;
   double confidence = 0.95;
   int threads = 0;
+  double cov_target = 0.1;   // adaptive: stop when the CoV is at most this (importance_sampling.h)
+  // Per constraint (may be empty): 1 = a violation is already shown by the surrogate
+  // or the Monte Carlo runs, so no estimate is spent on it (it could not change the verdict).
+  std::vector<std::uint8_t> skip;
 };
 
 struct RareEventEstimate {

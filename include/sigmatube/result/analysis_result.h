@@ -23,6 +23,20 @@ struct MonteCarloConstraint {
   double path_probability = kNaN;
   long long path_violations = 0;
   double path_interval[2] = {kNaN, kNaN};  // Clopper–Pearson at MonteCarloResult::confidence
+  // Failed runs are unknown: intervals over all runs with failures counted safe /
+  // counted as violations, and the pessimistic governing probability a verdict uses.
+  double path_interval_failures_safe[2] = {kNaN, kNaN};
+  double path_interval_failures_violating[2] = {kNaN, kNaN};
+  double pessimistic_probability = kNaN;
+  // Paired cross-check on the same runs (montecarlo/agreement.h).
+  long long compared_runs = 0;
+  long long surrogate_only = 0;   // runs the surrogate violates and the model does not
+  long long model_only = 0;       // runs the model violates and the surrogate does not
+  int compared_time_index = -1;   // pointwise scope: the report time compared; −1 for path
+  double paired_difference = kNaN;              // p_S − p_M on the same runs
+  double paired_interval[2] = {kNaN, kNaN};     // Agresti–Min at MonteCarloResult::confidence
+  double mcnemar_p = kNaN;                      // exact, two-sided
+  double holm_p = kNaN;                         // Holm-adjusted over the constraints
 };
 
 struct ImportanceSamplingResult {
@@ -31,8 +45,13 @@ struct ImportanceSamplingResult {
   double probability = kNaN;
   double standard_error = kNaN;
   double interval[2] = {kNaN, kNaN};
-  double effective_sample_size = kNaN;
+  double effective_sample_size = kNaN;  // Kish, over the violating runs' weights
   double design_point_distance = kNaN;  // ‖z*‖ in standard-normal germ space (reliability index β)
+  double coefficient_of_variation = kNaN;
+  double cov_target = kNaN;
+  bool converged = false;               // CoV target met: only then does it count for the verdict
+  long long failed_runs = 0;
+  double pessimistic_probability = kNaN;  // failed runs counted as violations
 };
 
 struct ConstraintResult {
@@ -73,8 +92,15 @@ struct ConstraintResult {
   bool has_montecarlo = false;
   MonteCarloConstraint montecarlo;
   ImportanceSamplingResult importance_sampling;
-  std::string agreement;  // "agree" | "disagree" | "" (no cross-check)
+  std::string agreement;  // "agree" | "disagree" | "too few runs to tell" | "" (no cross-check)
   std::string agreement_cause;
+
+  // Variance shares of the clearance per uncertain input (case-file order),
+  // [T, n_uncertain], from a regression of the clearance on the surrogate basis;
+  // lower/upper: delta-method interval at SurrogateResult::sobol_confidence.
+  Eigen::MatrixXd sobol_first_by_input, sobol_total_by_input;
+  Eigen::MatrixXd sobol_first_by_input_lower, sobol_first_by_input_upper;
+  Eigen::MatrixXd sobol_total_by_input_lower, sobol_total_by_input_upper;
 };
 
 struct MonteCarloResult {
@@ -91,8 +117,11 @@ struct MonteCarloResult {
   Cube sample_outputs;                        // K kept runs, each [T, n_out]
   double joint_path_probability = kNaN;
   double joint_path_interval[2] = {kNaN, kNaN};
-  std::string agreement;                      // overall "agree" | "disagree"
-  std::string agreement_cause;
+  std::string agreement;                      // overall "agree" | "disagree" | "too few runs to tell"
+  std::string agreement_cause;                // one line: why (empty when they agree)
+  std::string agreement_details;              // several lines: per constraint, warnings
+  double false_alarm_level = kNaN;            // family-wise, Holm over constraints
+  double relative_tolerance = kNaN;           // relevant |p_S − p_M| / p_M
 };
 
 struct SurrogateResult {
@@ -115,12 +144,46 @@ struct SurrogateResult {
   bool sampling_target_met = true;            // precision: every standard error met the target before the cap
   double joint_path_probability = kNaN;
   std::vector<std::string> karhunen_loeve;    // one line per gaussian-process input
+
+  // Quantile tubes: levels (sorted) and T entries of [n_out, k].
+  std::vector<double> quantile_levels;
+  Cube quantiles;
+  long long quantile_samples = 0;
+  // Variance shares per uncertain input: T entries of [n_out, n_uncertain], inputs
+  // in case-file order (input_names), with delta-method intervals.
+  std::vector<std::string> input_names;
+  Cube sobol_first_by_input, sobol_total_by_input;
+  Cube sobol_first_by_input_lower, sobol_first_by_input_upper;
+  Cube sobol_total_by_input_lower, sobol_total_by_input_upper;
+  double sobol_confidence = kNaN;
+};
+
+/// The deterministic tube (model/deterministic_tube.h).
+struct TubeResult {
+  bool done = false;
+  std::vector<std::string> position;  // state names forming p
+  std::string units;                  // unit of the radius (the position's, when they agree)
+  Eigen::VectorXd radius;             // [T], NaN = no bound
+  Eigen::VectorXd rate;               // [T], contraction rate, 1/s
+  Eigen::MatrixXd metric;             // P(t0)
+  std::string metric_kind;
+  double sigma = kNaN;                // [tube] sigma
+  bool bounded = true;
+  std::string no_bound_reason;
+  std::vector<std::string> assumptions;
+  // Against the kept Monte Carlo runs: largest ‖p − p_nom‖ seen, the bound at
+  // that time divided by it, and how many (run, time) pairs exceeded the bound.
+  long long runs_checked = 0;
+  double largest_observed_deviation = kNaN;
+  double conservatism = kNaN;
+  long long exceedances = 0;
 };
 
 struct AnalysisResult {
   // Root attributes.
   std::string tool_version;
   std::string case_sha256;
+  std::string inputs_sha256;  // case file + referenced files + suite overrides (app/case_loader.h)
   std::string created_utc;
   unsigned long long seed = 0;
   std::string title;
@@ -129,11 +192,13 @@ struct AnalysisResult {
 
   std::vector<double> time;                 // [T]
   std::vector<std::string> output_names;    // [n_out]
+  std::vector<std::string> output_units;    // [n_out], "" = not given
   Eigen::MatrixXd nominal_outputs;          // [T, n_out]
 
   SurrogateResult surrogate;
   std::vector<ConstraintResult> constraints;
   MonteCarloResult montecarlo;
+  TubeResult tube;
 
   /// Exit code of product.md §3 for this result: 0 all within bounds, 1 a bound
   /// exceeded, 3 surrogate and Monte Carlo disagree (takes precedence over 1? no:

@@ -32,6 +32,9 @@ struct CompareOptions {
   double min_margin = std::numeric_limits<double>::quiet_NaN();
   std::map<std::string, double> min_margin_override;
 
+  // The budget file these came from ("" = none): named in messages.
+  std::string source;
+
   /// Throws InputError naming the field for negative allowances or α ∉ (0, 1).
   void validate() const;
 };
@@ -67,6 +70,8 @@ struct CompareRow {
 struct CompareReport {
   std::string base_label, candidate_label;  // title or case path; callers may set file names
   std::string base_sha256, candidate_sha256;
+  std::string base_inputs_sha256, candidate_inputs_sha256;
+  bool same_inputs = false;  // both inputs_sha256 known and equal: nothing changed but the seed or sizes
   double significance = 0.05;
   std::vector<CompareRow> rows;  // base order, then constraints new in the candidate
   bool regression = false;       // any row regressed: exit code 1

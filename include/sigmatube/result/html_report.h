@@ -35,6 +35,12 @@ struct ReportOptions {
 ///    keep-out zones whose position lies in the plane (spheres drawn as
 ///    their projected circle, ellipsoids as their projected ellipse, boxes as
 ///    rectangles);
+///  * "plot-tube-deviation": deviation from the nominal path vs time, with the
+///    deterministic bound ±r(t) when the plane outputs are the tube's position;
+///  * the sections of result/breakdown_report.h: "plot-tube-bound" (the
+///    deterministic tube radius with the kept runs' deviation), "plot-quantiles-<k>"
+///    (quantile bands) and "plot-shares-<k>" (variance shares per uncertain input
+///    of each constraint's clearance, with intervals); axes carry units;
 ///  * "plot-probability": violation probability vs time on a log axis,
 ///    surrogate (solid) and Monte Carlo (dashed), bound lines (dotted);
 ///  * "plot-clearance-<k>" (k = 1, 2, ...): clearance mean, ±3σ band, the

@@ -10,7 +10,7 @@ namespace sigmatube::result {
 
 /// One JSON object:
 ///   { "format": "sigmatube-summary", "version": 1, "title", "case_path",
-///     "case_sha256", "created_utc", "tool_version", "seed", "command",
+///     "case_sha256", "inputs_sha256", "created_utc", "tool_version", "seed", "command",
 ///     "report_times", "time_start", "time_end", "outputs": [...],
 ///     "surrogate": null | { "method", "germ_dimension", "basis_size",
 ///        "model_runs", "tolerance_met", "error_estimate": {output: value},
@@ -24,10 +24,12 @@ namespace sigmatube::result {
 ///           "worst_pointwise_probability", "gate_probability",
 ///           "gate_standard_error" },
 ///        "montecarlo": null | { "path_probability", "path_violations",
-///           "path_interval": [lo, hi], "gate_probability" },
+///           "path_interval": [lo, hi], "gate_probability",
+///           "pessimistic_probability", "surrogate_only", "model_only",
+///           "paired_difference", "paired_interval": [lo, hi], "mcnemar_p", "holm_p" },
 ///        "importance_sampling": null | { "runs", "probability",
 ///           "standard_error", "interval", "effective_sample_size",
-///           "design_point_distance" },
+///           "design_point_distance", "coefficient_of_variation", "converged" },
 ///        "margin", "worst_time", "required_backoff", "tolerable_radius",
 ///        "within_bound", "verdict", "agreement", "agreement_cause" } ],
 ///     "exit_code": 0|1|3, "exit_verdict": "..." }

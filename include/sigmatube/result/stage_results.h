@@ -3,6 +3,7 @@
 // Each analysis stage's own result, entered into the result struct
 // (analysis_result.h): the one place where the stages' types map to what a
 // result file stores. app::analyze_case calls one of these after each stage.
+#include <cstdint>
 #include <optional>
 #include <vector>
 
@@ -37,6 +38,16 @@ void add_cross_check(AnalysisResult& r, const montecarlo::CrossCheck& check, uns
 
 /// Each constraint's importance-sampling estimate (entries in constraint order,
 /// nullopt = none); a full-model estimate governs the verdict of its bound.
-void add_rare_events(AnalysisResult& r, const std::vector<std::optional<montecarlo::RareEventEstimate>>& estimates);
+void add_rare_events(AnalysisResult& r, const std::vector<std::optional<montecarlo::RareEventEstimate>>& estimates,
+                     double cov_target);
+
+/// Per constraint: 1 when the surrogate or the Monte Carlo runs (failed runs counted
+/// as violations) already show a probability above the bound.
+std::vector<std::uint8_t> violation_shown(const AnalysisResult& r);
+
+/// The bound verdict of every constraint from all evidence (montecarlo/verdict.h):
+/// surrogate, Monte Carlo, and a converged rare-event estimate. Call after
+/// add_cross_check and add_rare_events; without a cross-check it changes nothing.
+void add_verdicts(AnalysisResult& r, double rare_event_threshold);
 
 }  // namespace sigmatube::result

@@ -1,7 +1,9 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 // The terminal summary printed by `run` and `show`.
+#include <cstdint>
 #include <string>
+#include <vector>
 
 #include "sigmatube/result/analysis_result.h"
 
@@ -43,5 +45,10 @@ double montecarlo_gate_probability(const ConstraintResult& c);
 /// Biometrika 26, 1934) of round(p·n) violations in n = runs − failed runs.
 /// NaN without Monte Carlo.
 void montecarlo_gate_interval(const AnalysisResult& result, const ConstraintResult& c, double out[2]);
+
+/// Of the report times inside the constraint's window: how many have flags[k] set
+/// (*ok) and how many there are (*total). The summary and the report count alike.
+void window_flag_counts(const ConstraintResult& c, const std::vector<double>& time,
+                        const std::vector<std::uint8_t>& flags, int* ok, int* total);
 
 }  // namespace sigmatube::result

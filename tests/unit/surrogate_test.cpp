@@ -278,7 +278,12 @@ TEST(Surrogate, EvaluateEqualsBasisMatrixTimesCoefficients) {
       for (int c = 0; c < columns; ++c) pick.push_back((c * 5) % 9);
       Eigen::MatrixXd part;
       s.evaluate(x, part, pick);
-      for (int c = 0; c < columns; ++c) EXPECT_TRUE(part.col(c) == y.col(pick[static_cast<std::size_t>(c)])) << n;
+      // Eigen's product takes a different register path for a different column
+      // count, so a subset agrees to rounding, not bit for bit.
+      for (int c = 0; c < columns; ++c)
+        EXPECT_LE((part.col(c) - y.col(pick[static_cast<std::size_t>(c)])).cwiseAbs().maxCoeff(),
+                  kRounding * (1.0 + reference.cwiseAbs().maxCoeff()))
+            << n;
     }
   }
 }

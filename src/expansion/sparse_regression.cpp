@@ -27,7 +27,9 @@
 // estimate exceeds tolerance (nested: every earlier run is reused), within
 // max_model_runs less the hold-out.
 #include <algorithm>
+#include <numeric>
 #include <optional>
+#include <set>
 
 #include "build_parts.h"
 #include "sigmatube/design/sampling_design.h"
@@ -45,6 +47,8 @@ constexpr double kDefaultQNorm = 0.5;
 // Largest candidate set per degree (memory N × candidates doubles).
 constexpr Eigen::Index kMaxCandidates = 6000;
 constexpr int kMaxDegree = 40;
+// Growth steps of the candidate basis beyond the largest hyperbolic set.
+constexpr int kMaxGrowthSteps = 20;
 // Selected terms at most this share of the runs (the corrected LOO factor grows
 // without bound as P → N).
 constexpr double kMaxTermsShare = 0.5;
@@ -238,10 +242,12 @@ AdaptiveOutcome sparse_regression(const std::vector<germ::FamilySpec>& families,
     MultiIndexSet chosen_candidates;
     int worse_in_a_row = 0;
     std::string degree_stop = "degree limit";
+    bool capped = false;
     for (int p = 1; p <= kMaxDegree; ++p) {
       const MultiIndexSet candidates = hyperbolic_set(d, p, q);
       if (candidates.rows() > kMaxCandidates) {
         degree_stop = "candidate set of degree " + std::to_string(p) + " exceeds " + std::to_string(kMaxCandidates);
+        capped = true;
         break;
       }
       const Path path = somp(basis_matrix(families, candidates, points), z);
@@ -253,6 +259,39 @@ AdaptiveOutcome sparse_regression(const std::vector<germ::FamilySpec>& families,
         degree_stop = "corrected LOO rose at two degrees in a row";
         break;
       }
+    }
+    if (capped && !chosen.selected.empty()) {
+      // Basis growth beyond the largest hyperbolic set that fits (Jakeman,
+      // Eldred & Sargsyan, J. Comput. Phys. 289, 2015): the selected terms and
+      // their forward neighbours α + e_k and α + 2e_k (two degrees, so that an
+      // odd or even effect can grow), while ε* improves.
+      int grown = 0;
+      for (int step = 0; step < kMaxGrowthSteps; ++step) {
+        std::set<std::vector<int>> next;
+        for (Eigen::Index j : chosen.selected) {
+          std::vector<int> alpha(chosen_candidates.row(j).data(), chosen_candidates.row(j).data() + d);
+          next.insert(alpha);
+          for (int k = 0; k < d; ++k)
+            for (int step_k = 1; step_k <= 2; ++step_k) {
+              std::vector<int> beta = alpha;
+              beta[static_cast<std::size_t>(k)] += step_k;
+              if (std::accumulate(beta.begin(), beta.end(), 0) <= kMaxDegree) next.insert(std::move(beta));
+            }
+        }
+        if (static_cast<Eigen::Index>(next.size()) > kMaxCandidates) break;
+        MultiIndexSet candidates(static_cast<Eigen::Index>(next.size()), d);  // the zero index sorts first
+        Eigen::Index r = 0;
+        for (const auto& alpha : next) {
+          for (int k = 0; k < d; ++k) candidates(r, k) = alpha[static_cast<std::size_t>(k)];
+          ++r;
+        }
+        const Path path = somp(basis_matrix(families, candidates, points), z);
+        if (!(path.criterion < chosen.criterion)) break;
+        chosen = path;
+        chosen_candidates = candidates;
+        ++grown;
+      }
+      if (grown > 0) degree_stop += "; basis grown " + std::to_string(grown) + " times by forward neighbours";
     }
     SparseFit f =
         fit_on(families, chosen_candidates, chosen.selected, points, y, hold_points, hold_values, n_times, n_outputs);

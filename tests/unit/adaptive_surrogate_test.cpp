@@ -334,7 +334,7 @@ TEST(DimensionAdaptive, UnreachableToleranceEndsWithTheBestSurrogateAndANote) {
 
 TEST(DimensionAdaptive, ImpossibleFirstDesignFailsBeforeAnyRun) {
   // 20 inputs: the first adaptive-sparse-grid step needs 1 + 4·20 + 10 runs and the
-  // first sparse-regression design 2·21; a budget of 30 fits neither.
+  // first sparse-regression design 2·21 + 10 hold-out runs; a budget of 30 fits neither.
   const std::vector<FamilySpec> families(20, FamilySpec{Family::hermite});
   for (const SurrogateMethod method : {SurrogateMethod::adaptive_sparse_grid, SurrogateMethod::sparse_regression}) {
     const SurrogateOptions o = adaptive_options(method, 1e-3, 30);

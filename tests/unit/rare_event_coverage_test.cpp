@@ -9,6 +9,7 @@
 #include <gtest/gtest.h>
 
 #include "python_reference.h"
+#include "sigmatube/core/counter_rng.h"
 
 #include <cmath>
 #include <cstdio>
@@ -77,6 +78,111 @@ TEST(RareEventCoverage, IntervalsCoverNoncentralChiSquareProbabilities) {
   const double coverage = static_cast<double>(covered) / cases;
   std::printf("coverage %.3f over %d seeded estimates\n", coverage, cases);
   EXPECT_GE(coverage, kMinimumCoverage);
+}
+
+// Two separate failure regions (importance_sampling.h, MixtureProposal): violation in
+// either of two balls ‖z − c_k‖ ≤ r on opposite sides of the origin, disjoint, so
+// P = F_ncx2(r²; d, ‖c_1‖²) + F_ncx2(r²; d, ‖c_2‖²) exactly (SciPy at test time). The
+// design points are found as the pipeline does (find_design_points from a widened
+// screen), the proposal is the defensive mixture over them.
+struct TwoBalls {
+  int dimension;
+  double distance[2];  // ‖c_1‖ along (1, 1, …)/√d, ‖c_2‖ along (−1, 1, 0, …)/√2
+  double radius;
+};
+const std::vector<TwoBalls> kTwoBalls = {{3, {4.9, 5.1}, 1.0}, {4, {5.5, 5.9}, 1.5}, {3, {5.0, 5.8}, 1.0}, {4, {5.8, 5.8}, 1.5}};
+// Spread of the screening draws and their number, as montecarlo/rare_events.cpp uses them.
+constexpr double kScreenSpread = 2.0;
+constexpr long long kScreenSize = 20000;
+
+TEST(RareEventCoverage, MixtureIntervalsCoverTwoSeparateRegions) {
+  std::string program = "from scipy.stats import ncx2\n";
+  for (const auto& b : kTwoBalls)
+    program += "print(repr(ncx2.cdf(" + std::to_string(b.radius * b.radius) + ", " + std::to_string(b.dimension) + ", " +
+               std::to_string(b.distance[0] * b.distance[0]) + ") + ncx2.cdf(" + std::to_string(b.radius * b.radius) +
+               ", " + std::to_string(b.dimension) + ", " + std::to_string(b.distance[1] * b.distance[1]) + ")))\n";
+  const std::vector<double> exact = test::python_numbers(program);
+  ASSERT_EQ(exact.size(), kTwoBalls.size());
+  const int n_seeds = std::getenv("SIGMATUBE_SANITIZED") ? 5 : 30;
+  int cases = 0, covered = 0, single_covered = 0;
+  for (std::size_t k = 0; k < kTwoBalls.size(); ++k) {
+    const TwoBalls& b = kTwoBalls[k];
+    ASSERT_GE(exact[k], 1e-8);
+    ASSERT_LE(exact[k], 2e-5);
+    const Eigen::VectorXd c1 = Eigen::VectorXd::Constant(b.dimension, b.distance[0] / std::sqrt(b.dimension));
+    Eigen::VectorXd c2 = Eigen::VectorXd::Zero(b.dimension);
+    c2[0] = -b.distance[1] / std::sqrt(2.0);
+    c2[1] = b.distance[1] / std::sqrt(2.0);
+    ASSERT_GT((c1 - c2).norm(), 2.0 * b.radius);  // disjoint: the two probabilities add
+    const LimitState g = [&](const Eigen::VectorXd& z) { return std::min((z - c1).norm(), (z - c2).norm()) - b.radius; };
+    const CounterRng rng(77);
+    Eigen::MatrixXd screen(kScreenSize, b.dimension);
+    for (long long i = 0; i < kScreenSize; ++i)
+      for (int j = 0; j < b.dimension; ++j) screen(i, j) = kScreenSpread * rng.normal(static_cast<std::uint64_t>(i), j);
+    Eigen::VectorXd g_screen(kScreenSize);
+    for (long long i = 0; i < kScreenSize; ++i) g_screen[i] = g(screen.row(i).transpose());
+    const auto points = find_design_points(g, screen, g_screen);
+    ASSERT_EQ(points.size(), 2u) << "ball pair " << k;  // one per ball, duplicates merged
+    EXPECT_NEAR(points[0].beta, std::min(b.distance[0], b.distance[1]) - b.radius, 1e-6);
+    EXPECT_NEAR(points[1].beta, std::max(b.distance[0], b.distance[1]) - b.radius, 1e-6);
+    const MixtureProposal proposal = mixture_over(points, 0.1);
+    const auto indicator = [&](const Eigen::VectorXd& z, long long, std::string*) { return g(z) <= 0.0 ? 1 : 0; };
+    int here = 0, single_here = 0;
+    double worst_cov = 0.0;
+    long long most_runs = 0;
+    for (int s = 0; s < n_seeds; ++s) {
+      ImportanceSamplingOptions options;
+      options.samples = kMaximumRuns;
+      options.cov_target = 0.1;
+      options.seed = 500 + static_cast<unsigned long long>(s);
+      options.threads = 2;
+      const auto r = importance_sample(proposal, indicator, options);
+      EXPECT_TRUE(r.converged) << "ball pair " << k << " seed " << s << ": CoV " << r.coefficient_of_variation;
+      EXPECT_LE(r.coefficient_of_variation, kMaximumCov);
+      worst_cov = std::max(worst_cov, r.coefficient_of_variation);
+      most_runs = std::max(most_runs, r.samples);
+      ++cases;
+      if (r.lower <= exact[k] && exact[k] <= r.upper) {
+        ++covered;
+        ++here;
+      }
+      // Side by side: one design point, the proposal the pipeline used before.
+      const auto one = importance_sample(points[0].z, indicator, options);
+      if (one.lower <= exact[k] && exact[k] <= one.upper) {
+        ++single_covered;
+        ++single_here;
+      }
+    }
+    std::printf("two balls d=%d |c|=%.2f,%.2f: exact %.4e, mixture covered %d/%d (worst CoV %.3f, most runs %lld), "
+                "one design point covered %d/%d\n",
+                b.dimension, b.distance[0], b.distance[1], exact[k], here, n_seeds, worst_cov, most_runs, single_here,
+                n_seeds);
+  }
+  const double coverage = static_cast<double>(covered) / cases;
+  std::printf("mixture coverage %.3f, one design point %.3f, over %d seeded estimates\n", coverage,
+              static_cast<double>(single_covered) / cases, cases);
+  EXPECT_GE(coverage, kMinimumCoverage);
+}
+
+TEST(RareEventCoverage, MixtureWithOneCentreIsTheSingleDesignPointProposal) {
+  const Eigen::Vector3d c = Eigen::Vector3d::Constant(5.3 / std::sqrt(3.0));
+  const Eigen::Vector3d z_star = c * (4.3 / 5.3);
+  const auto indicator = [&](const Eigen::VectorXd& z, long long, std::string*) { return (z - c).norm() <= 1.0 ? 1 : 0; };
+  ImportanceSamplingOptions options;
+  options.samples = 2000;
+  const auto single = importance_sample(z_star, indicator, options);
+  const auto mixture = importance_sample(MixtureProposal::around(z_star), indicator, options);
+  EXPECT_EQ(single.probability, mixture.probability);
+  EXPECT_EQ(single.violations, mixture.violations);
+  // Two centres and a defensive share: the same for any thread count.
+  const MixtureProposal q{{z_star, -z_star}, {0.6, 0.3}, 0.1};
+  options.threads = 1;
+  const auto one = importance_sample(q, indicator, options);
+  options.threads = 2;
+  const auto two = importance_sample(q, indicator, options);
+  EXPECT_EQ(one.probability, two.probability);
+  EXPECT_EQ(one.violations, two.violations);
+  EXPECT_THROW(importance_sample(MixtureProposal{{z_star}, {0.5}, 0.1}, indicator, options), std::logic_error);
 }
 
 TEST(RareEventCoverage, AdaptiveRunsAreTheSameForAnyThreadCount) {

@@ -48,6 +48,7 @@
 #include "sigmatube/core/counter_rng.h"
 #include "sigmatube/core/parallel.h"
 #include "sigmatube/expansion/surrogate.h"
+#include "sigmatube/model/batch_propagator.h"
 #include "sigmatube/model/controller.h"
 #include "sigmatube/montecarlo/monte_carlo.h"
 
@@ -333,7 +334,66 @@ void throughput(long long runs) {
   const double t2 = wall_now() - w0;
   std::cout << "  " << scaling_runs << " runs: " << fmt("%.3g", t1) << " s on 1 thread, " << fmt("%.3g", t2)
             << " s on 2 threads (wall; other processes share these cores)\n";
-  add_row("(c) 1 -> 2 threads", t1 / t2, fmt("%.3g", t1) + " s / " + fmt("%.3g", t2) + " s", 1.8, true);
+  add_row("(c) 1 -> 2 threads, Monte Carlo", t1 / t2, fmt("%.3g", t1) + " s / " + fmt("%.3g", t2) + " s", 1.8, true);
+
+  std::cout << "\n(c) thread scaling, surrogate sampling of the demo  [load " << load_text() << "]\n";
+  {
+    const app::LoadedCase demo = app::load_case(kDemoCase);
+    expansion::SurrogateSummary summary;
+    const expansion::Surrogate s = build(demo, 2, summary);
+    const long long n = 8 * 65536;
+    w0 = wall_now();
+    const auto r1 = sample_surrogate(demo, s, n, 1);
+    const double s1 = wall_now() - w0;
+    w0 = wall_now();
+    const auto r2 = sample_surrogate(demo, s, n, 2);
+    const double s2 = wall_now() - w0;
+    std::cout << "  " << n << " samples: " << fmt("%.3g", s1) << " s on 1 thread, " << fmt("%.3g", s2)
+              << " s on 2 threads (wall); same path probability " << (r1.constraints[0].path_probability == r2.constraints[0].path_probability ? "yes" : "NO") << "\n";
+    add_row("(c) 1 -> 2 threads, surrogate sampling", s1 / s2, fmt("%.3g", s1) + " s / " + fmt("%.3g", s2) + " s", 1.8, true);
+  }
+}
+
+// ------------------------------------------------------------------ (g)
+// Wall time of a whole default analysis (surrogate, sampling, Monte Carlo
+// cross-check as the case asks) with "precision" sampling against "fixed".
+void default_run(const std::string& label, const std::string& path) {
+  std::cout << "\n(g) default run, " << label << ", 2 threads  [load " << load_text() << "]\n";
+  // 0: fixed (the former default), 1: precision with the default target,
+  // 2: precision with the target set to the fixed run's standard errors.
+  double wall[3] = {0, 0, 0}, cpu[3] = {0, 0, 0};
+  result::AnalysisResult results[3];
+  double relative = 1.0, absolute = 1.0;
+  for (int k = 0; k < 3; ++k) {
+    app::LoadedCase loaded = app::load_case(path);
+    loaded.options.surrogate.sampling = k == 0 ? casefile::SurrogateSampling::fixed : casefile::SurrogateSampling::precision;
+    if (k == 2) {
+      loaded.options.surrogate.sampling_relative_error = relative;
+      loaded.options.surrogate.sampling_absolute_error = absolute;
+    }
+    app::AnalysisOptions options;
+    options.threads = 2;
+    options.progress = false;
+    const double w0 = wall_now(), c0 = process_cpu();
+    results[k] = app::analyze_case(loaded, options);
+    wall[k] = wall_now() - w0;
+    cpu[k] = process_cpu() - c0;
+    std::cout << "  " << (k == 0 ? "fixed           " : k == 1 ? "precision       " : "precision, equal") << ": "
+              << fmt("%.3g", wall[k]) << " s wall, " << fmt("%.3g", cpu[k]) << " CPU-s, " << results[k].surrogate.samples
+              << " samples";
+    for (const auto& c : results[k].constraints) {
+      std::cout << "; " << c.name << " path p " << fmt("%.4g", c.path_probability) << " s.e. " << fmt("%.3g", c.path_standard_error);
+      if (k == 0 && c.path_probability > 0) {
+        relative = std::min(relative, c.path_standard_error / c.path_probability);
+        absolute = std::min(absolute, c.path_standard_error / c.max_probability);
+      }
+    }
+    std::cout << "\n";
+  }
+  add_row("(g) default run fixed / precision, " + label, cpu[0] / cpu[1],
+          fmt("%.3g", cpu[0]) + " / " + fmt("%.3g", cpu[1]) + " CPU-s", 3.0, true);
+  add_row("(g) same at equal s.e., " + label, cpu[0] / cpu[2],
+          fmt("%.3g", cpu[0]) + " / " + fmt("%.3g", cpu[2]) + " CPU-s", 3.0, true);
 }
 
 // ------------------------------------------------------------------ (d)
@@ -372,12 +432,31 @@ void sampling_rate() {
             << " columns: " << fmt("%.3g", surrogate_rate / 1e9) << " GFLOP/s; Eigen " << n << "x" << n
             << " GEMM: " << fmt("%.3g", gemm_rate / 1e9) << " GFLOP/s (" << fmt("%.3g", N / (flops * 1.0 / surrogate_rate) / 1e6)
             << " M samples/s)\n";
-  add_row("(d) sampling rate / GEMM rate", 100.0 * surrogate_rate / gemm_rate, "", 50.0, true, " %");
+  add_row("(d) sampling rate / Eigen GEMM rate", 100.0 * surrogate_rate / gemm_rate, "", 50.0, true, " %");
+  // An AVX2/FMA GEMM for the machine's rate: NumPy's OpenBLAS on one thread
+  // (OPENBLAS_CORETYPE/OPENBLAS_L2_SIZE unset for this command only, so that it
+  // picks its kernel for this CPU).
+  const std::string command = std::string("env -u OPENBLAS_CORETYPE -u OPENBLAS_L2_SIZE OMP_NUM_THREADS=1 OPENBLAS_NUM_THREADS=1 ") +
+                              SIGMATUBE_PYTHON +
+                              " -c \"import numpy as np, time; n=1024; a=np.random.rand(n,n); b=np.random.rand(n,n); a@b; "
+                              "t=time.process_time(); r=0\nwhile time.process_time()-t<2: a@b; r+=1\n"
+                              "print(2*n**3*r/(time.process_time()-t))\"";
+  double blas_rate = 0.0;
+  if (FILE* pipe = popen(command.c_str(), "r")) {
+    char line[256];
+    if (std::fgets(line, sizeof line, pipe)) blas_rate = std::atof(line);
+    pclose(pipe);
+  }
+  if (blas_rate > 0.0) {
+    std::cout << "  OpenBLAS (NumPy) 1024x1024 GEMM, one thread: " << fmt("%.3g", blas_rate / 1e9) << " GFLOP/s\n";
+    add_row("(d) sampling rate / OpenBLAS GEMM rate", 100.0 * surrogate_rate / blas_rate, "", 50.0, true, " %");
+  }
 }
 
 // ------------------------------------------------------------------ (e)
 int memory_child(long long samples) {
   app::LoadedCase loaded = app::load_case(kTrackingCase);
+  loaded.options.surrogate.sampling = casefile::SurrogateSampling::fixed;  // exactly `samples` samples
   app::AnalysisOptions options;
   options.threads = 2;
   options.mc_runs = 0;
@@ -427,13 +506,16 @@ int main(int argc, char** argv) {
     if (arg == "--quick") quick = true;
   }
   std::cout << "sigmatube benchmark suite (" << (quick ? "quick" : "full") << "); machine: " << sysconf(_SC_NPROCESSORS_ONLN)
-            << " cores online; load " << load_text() << "\n";
+            << " cores online; lane kernels: " << model::BatchPropagator::instruction_set() << "; load " << load_text() << "\n";
   try {
     memory(argv[0], quick ? 1000000 : 10000000);
     efficiency("demo (keep-out widened)", kDemoCase, quick ? 200 : 1000, 2);
     efficiency("HCW tracking", kTrackingCase, quick ? 500 : 4000, 2);
     throughput(quick ? 1000 : 4000);
     sampling_rate();
+    default_run("demo (keep-out widened)", kDemoCase);
+    default_run("bundled demo", kSource + "/cases/inspection-approach/case.toml");
+    default_run("HCW tracking", kTrackingCase);
   } catch (const std::exception& e) {
     std::cerr << "benchmark failed: " << e.what() << "\n";
     return 1;

@@ -117,10 +117,16 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
   // 2. Surrogate sampling: violation statistics of every constraint (constraints/surrogate_sampling.h).
   ProgressBar sampling_bar("surrogate sampling", static_cast<std::size_t>(samples),
                            options.progress && d > 0 && !constraint_list.empty());
-  const constraints::ViolationResults sampled =
-      constraints::sample_surrogate(constraint_list, surrogate.surrogate, germ, times, samples, mc_options.seed,
-                                    threads, [&](long long done) { sampling_bar.update(static_cast<std::size_t>(done)); });
+  const constraints::SurrogateSampling sampling = constraints::sample_surrogate_to_target(
+      constraint_list, surrogate.surrogate, germ, times, loaded.options.surrogate, samples, mc_options.seed, threads,
+      [&](long long done) { sampling_bar.update(static_cast<std::size_t>(std::min(done, samples))); });
   sampling_bar.finish();
+  const constraints::ViolationResults& sampled = sampling.results;
+  if (!constraint_list.empty()) {
+    r.surrogate.samples = sampling.samples;
+    r.surrogate.sampling = sampling.precision ? "precision" : "fixed";
+    r.surrogate.sampling_target_met = sampling.target_met;
+  }
 
   // 3. Constraint statistics, reformulations and margins (constraints/assessment.h).
   result::add_constraints(r, constraint_list, sampled, constraints::assess_constraints(constraint_list, sampled, times));

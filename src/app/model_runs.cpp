@@ -2,6 +2,8 @@
 #include "sigmatube/app/model_runs.h"
 
 #include <algorithm>
+#include <limits>
+#include <memory>
 #include <vector>
 
 #include "sigmatube/core/distributed.h"
@@ -58,6 +60,7 @@ void ModelRunner::run_block(const Eigen::MatrixXd& points, long long first, std:
         ok[l] = 1;
       } catch (const NumericalError&) {
         if (rethrow) throw;
+        std::fill(row, row + columns, std::numeric_limits<double>::quiet_NaN());
       }
     }
     row[columns] = ok[l] ? 1.0 : 0.0;
@@ -69,14 +72,28 @@ void ModelRunner::run(const Eigen::MatrixXd& points, long long first, int thread
   const auto& cl = *loaded_.closed_loop;
   const std::size_t count = static_cast<std::size_t>(points.rows());
   const std::size_t columns = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
-  std::vector<double> rows(count * (columns + 1));
-  run_distributed_rows(count, columns + 1, std::max<std::size_t>(block, 1), threads,
-                       [&](std::size_t b, std::size_t e, double* part) { run_block(points, first, b, e, part, rethrow); },
-                       rows.data());
-  for (std::size_t i = 0; i < count; ++i) {
-    const double* row = rows.data() + i * (columns + 1);
-    std::copy(row, row + columns, outputs + i * columns);
-    ok[i] = row[columns] != 0.0 ? 1 : 0;
+  // Uninitialized (every row is written by its block), so that no thread first
+  // clears the whole array alone; each block copies its own rows out, in parallel.
+  const std::size_t width = columns + 1;
+  const std::unique_ptr<double[]> rows(new double[count * width]);
+  auto copy_out = [&](std::size_t b, std::size_t e) {
+    for (std::size_t i = b; i < e; ++i) {
+      const double* row = rows.get() + i * width;
+      std::copy(row, row + columns, outputs + i * columns);
+      ok[i] = row[columns] != 0.0 ? 1 : 0;
+    }
+  };
+  run_distributed_rows(count, width, std::max<std::size_t>(block, 1), threads,
+                       [&](std::size_t b, std::size_t e, double* part) {
+                         run_block(points, first, b, e, part, rethrow);
+                         copy_out(b, e);
+                       },
+                       rows.get());
+  // Rows made by other ranks arrived with the gather.
+  if (process_count() > 1) {
+    const auto [own_begin, own_end] = rank_block(count, process_rank(), process_count());
+    copy_out(0, own_begin);
+    copy_out(own_end, count);
   }
 }
 

@@ -609,7 +609,7 @@ SurrogateOptions read_surrogate(const TomlTable& t) {
   s.where = t.where();
   s.key_where = t.key_locations();
   t.check_keys({"method", "degree", "level", "q_norm", "adaptive", "tolerance", "max_model_runs", "samples",
-                "oversampling", "design", "nested"},
+                "oversampling", "design", "nested", "sampling", "sampling_relative_error", "sampling_absolute_error"},
                "key");
   s.method = t.choice<SurrogateMethod>("method",
                                        {{"sparse-grid", SurrogateMethod::sparse_grid},
@@ -634,6 +634,15 @@ SurrogateOptions read_surrogate(const TomlTable& t) {
   s.max_model_runs = static_cast<int>(runs);
   s.samples = t.integer_or("samples", s.samples);
   if (s.samples < 1) t.fail("samples", "must be ≥ 1 (got " + std::to_string(s.samples) + ")");
+  s.sampling = t.choice<SurrogateSampling>(
+      "sampling", {{"precision", SurrogateSampling::precision}, {"fixed", SurrogateSampling::fixed}}, s.sampling,
+      "sampling");
+  s.sampling_relative_error = t.number_or("sampling_relative_error", s.sampling_relative_error);
+  if (!(s.sampling_relative_error >= 0.0 && s.sampling_relative_error < 1.0))
+    t.fail("sampling_relative_error", "must be in [0, 1) (got " + format_number(s.sampling_relative_error) + ")");
+  s.sampling_absolute_error = t.number_or("sampling_absolute_error", s.sampling_absolute_error);
+  if (!(s.sampling_absolute_error >= 0.0 && s.sampling_absolute_error < 1.0))
+    t.fail("sampling_absolute_error", "must be in [0, 1) (got " + format_number(s.sampling_absolute_error) + ")");
   s.oversampling = t.number_or("oversampling", s.oversampling);
   if (!(s.oversampling >= 2.0))
     t.fail("oversampling", "must be ≥ 2 (got " + format_number(s.oversampling) + ")");

@@ -4,6 +4,7 @@
 #include <atomic>
 
 #include "sigmatube/core/counter_rng.h"
+#include "sigmatube/core/scrambled_sobol.h"
 
 namespace sigmatube::constraints {
 std::vector<int> constraint_columns(const std::vector<Constraint>& list, int n_times, int n_out) {
@@ -36,6 +37,43 @@ ViolationResults sample_surrogate(const std::vector<Constraint>& list, const exp
         const long long done = sampled += n;
         if (progress) progress(done);
       });
+}
+
+SurrogateSampling sample_surrogate_to_target(const std::vector<Constraint>& list, const expansion::Surrogate& surrogate,
+                                             const germ::Germ& germ, const Eigen::VectorXd& times_in_seconds,
+                                             const casefile::SurrogateOptions& options, long long cap,
+                                             unsigned long long seed, int threads,
+                                             const std::function<void(long long done)>& progress) {
+  SurrogateSampling out;
+  const int d = germ.dimension();
+  if (list.empty() || options.sampling != casefile::SurrogateSampling::precision || d < 1 ||
+      d > ScrambledSobol::max_dimension()) {
+    out.results = sample_surrogate(list, surrogate, germ, times_in_seconds, cap, seed, threads, progress);
+    out.samples = cap;
+    return out;
+  }
+  PrecisionTarget target;
+  target.cap = cap;
+  target.relative = options.sampling_relative_error;
+  target.absolute = options.sampling_absolute_error;
+  const int n_out = surrogate.n_outputs;
+  const std::vector<int> columns = constraint_columns(list, surrogate.n_times, n_out);
+  std::atomic<long long> sampled{0};
+  const PrecisionSampling p = stream_to_precision(
+      list, times_in_seconds, n_out, target, kSurrogateChunk, threads,
+      [&](int replicate, long long first, long long count, Eigen::MatrixXd& Y) {
+        const ScrambledSobol sobol(d, seed ^ kSurrogateStream, static_cast<std::uint64_t>(replicate));
+        Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> z(count, d);
+        sobol.normals(static_cast<std::uint64_t>(first), static_cast<std::size_t>(count), z.data());
+        expansion::surrogate_outputs(surrogate, germ::germ_points(germ, z), columns, Y);
+        const long long done = sampled += count;
+        if (progress) progress(done);
+      });
+  out.results = p.results;
+  out.samples = p.samples;
+  out.precision = true;
+  out.target_met = p.target_met;
+  return out;
 }
 
 }  // namespace sigmatube::constraints

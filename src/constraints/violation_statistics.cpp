@@ -43,6 +43,21 @@ void push_bounded(std::vector<double>& heap, std::size_t k, double x) {
   }
 }
 
+// The k smallest of heap ∪ parts' heaps, as a max-heap: the same multiset as
+// pushing every value with push_bounded, in any order.
+template <class Get>
+void merge_bounded(std::vector<double>& heap, std::size_t k, std::size_t parts, const Get& get) {
+  std::size_t total = heap.size();
+  for (std::size_t q = 0; q < parts; ++q) total += get(q).size();
+  heap.reserve(total);
+  for (std::size_t q = 0; q < parts; ++q) heap.insert(heap.end(), get(q).begin(), get(q).end());
+  if (heap.size() > k) {
+    std::nth_element(heap.begin(), heap.begin() + static_cast<std::ptrdiff_t>(k - 1), heap.end());
+    heap.resize(k);
+  }
+  std::make_heap(heap.begin(), heap.end());
+}
+
 double order_statistic(std::vector<double> heap, long long m) {
   if (static_cast<std::size_t>(m) >= heap.size()) throw std::logic_error("ViolationStatistics: quantile heap too small");
   std::nth_element(heap.begin(), heap.begin() + m, heap.end());
@@ -188,6 +203,43 @@ void ViolationStatistics::merge(const ViolationStatistics& later) {
   n_ += later.n_;
 }
 
+void ViolationStatistics::merge_all(const std::vector<ViolationStatistics>& later, int threads) {
+  long long added = 0;
+  for (const auto& b : later) {
+    if (b.per_.size() != per_.size() || b.times_.size() != times_.size())
+      throw std::logic_error("ViolationStatistics::merge_all: accumulators of different shape");
+    added += b.n_;
+  }
+  if (n_ + added > max_samples_) throw std::logic_error("ViolationStatistics::merge_all: more samples than max_samples");
+  const std::size_t T = static_cast<std::size_t>(times_.size()), J = per_.size();
+  // Work item (j, t) for t < T, and (j, T) for the path minimum and counts.
+  parallel_for(J * (T + 1), threads, [&](std::size_t item) {
+    const std::size_t j = item / (T + 1), t = item % (T + 1);
+    PerConstraint& a = per_[j];
+    long long n = n_;
+    if (t < T) {
+      for (const auto& part : later) {
+        const PerConstraint& b = part.per_[j];
+        a.violations[t] += b.violations[t];
+        merge_moments(n, a.mean[t], a.m2[t], part.n_, b.mean[t], b.m2[t]);
+        n += part.n_;
+      }
+      merge_bounded(a.smallest[t], a.k, later.size(), [&](std::size_t q) -> const std::vector<double>& { return later[q].per_[j].smallest[t]; });
+    } else {
+      for (const auto& part : later) {
+        const PerConstraint& b = part.per_[j];
+        a.path_violations += b.path_violations;
+        double unused_m2 = 0.0;
+        merge_moments(n, a.path_mean, unused_m2, part.n_, b.path_mean, 0.0);
+        n += part.n_;
+      }
+      merge_bounded(a.smallest_path, a.k, later.size(), [&](std::size_t q) -> const std::vector<double>& { return later[q].per_[j].smallest_path; });
+    }
+  });
+  for (const auto& b : later) joint_violations_ += b.joint_violations_;
+  n_ += added;
+}
+
 ViolationResults ViolationStatistics::results() const {
   ViolationResults out;
   out.samples = n_;
@@ -253,9 +305,152 @@ ViolationResults stream_violation_statistics(
       fill(begin, end, Y);
       partial[w].add(Y, begin);
     });
-    for (const auto& p : partial) total.merge(p);
+    total.merge_all(partial, threads);
   }
   return total.results();
+}
+
+}  // namespace sigmatube::constraints
+
+namespace sigmatube::constraints {
+
+ViolationStatistics::Counts ViolationStatistics::counts() const {
+  Counts c;
+  c.samples = n_;
+  c.joint = joint_violations_;
+  for (const auto& p : per_) {
+    c.path.push_back(p.path_violations);
+    c.pointwise.push_back(p.violations);
+  }
+  return c;
+}
+
+namespace {
+
+// Replicate mean and standard error of counts[r] / n.
+std::pair<double, double> replicate_estimate(const std::vector<long long>& counts, long long n) {
+  const double R = static_cast<double>(counts.size()), dn = static_cast<double>(n);
+  double mean = 0.0;
+  for (long long c : counts) mean += static_cast<double>(c) / dn;
+  mean /= R;
+  double ss = 0.0;
+  for (long long c : counts) {
+    const double d = static_cast<double>(c) / dn - mean;
+    ss += d * d;
+  }
+  return {mean, std::sqrt(ss / (R - 1.0) / R)};
+}
+
+}  // namespace
+
+PrecisionSampling stream_to_precision(
+    const std::vector<Constraint>& constraints, const Eigen::VectorXd& times, int n_outputs,
+    const PrecisionTarget& target, long long chunk, int threads,
+    const std::function<void(int, long long, long long, Eigen::MatrixXd&)>& fill) {
+  const int R = target.replicates;
+  if (R < 2 || target.first_points < 1 || chunk <= 0 || target.cap < 0 || !(target.relative >= 0.0) ||
+      !(target.absolute >= 0.0))
+    throw std::logic_error("stream_to_precision: bad target");
+  const auto T = static_cast<std::size_t>(times.size());
+  const std::size_t J = constraints.size();
+  PrecisionSampling out;
+  out.replicates = R;
+  const long long cap = std::max<long long>(target.cap, R);
+  ViolationStatistics total(constraints, times, n_outputs, cap);
+  // Per replicate counts so far.
+  std::vector<ViolationStatistics::Counts> per_replicate(static_cast<std::size_t>(R));
+  for (auto& c : per_replicate) {
+    c.path.assign(J, 0);
+    c.pointwise.assign(J, std::vector<long long>(T, 0));
+  }
+  double smallest_bound = std::numeric_limits<double>::infinity();
+  for (const auto& c : constraints) smallest_bound = std::min(smallest_bound, c.max_probability());
+
+  long long done = 0;  // points per replicate so far
+  long long next = std::min(target.first_points, cap / R);
+  while (static_cast<long long>(R) * next <= cap) {
+    // Work items of this doubling: (replicate, begin, end), chunks inside a replicate.
+    struct Item {
+      int replicate;
+      long long begin, end;
+    };
+    std::vector<Item> items;
+    for (int r = 0; r < R; ++r)
+      for (long long b = done; b < next; b += chunk) items.push_back({r, b, std::min(next, b + chunk)});
+    for (std::size_t wave = 0; wave < items.size(); wave += static_cast<std::size_t>(kChunksPerWave)) {
+      const std::size_t in_wave = std::min<std::size_t>(static_cast<std::size_t>(kChunksPerWave), items.size() - wave);
+      std::vector<ViolationStatistics> partial;
+      partial.reserve(in_wave);
+      for (std::size_t w = 0; w < in_wave; ++w) partial.emplace_back(constraints, times, n_outputs, cap);
+      parallel_for(in_wave, threads, [&](std::size_t w) {
+        const Item& item = items[wave + w];
+        Eigen::MatrixXd Y(item.end - item.begin, times.size() * n_outputs);
+        fill(item.replicate, item.begin, item.end - item.begin, Y);
+        // Global sample index for messages: replicate-major within the doubling.
+        partial[w].add(Y, static_cast<long long>(item.replicate) * cap + item.begin);
+      });
+      for (std::size_t w = 0; w < in_wave; ++w) {
+        const ViolationStatistics::Counts c = partial[w].counts();
+        auto& acc = per_replicate[static_cast<std::size_t>(items[wave + w].replicate)];
+        acc.samples += c.samples;
+        acc.joint += c.joint;
+        for (std::size_t j = 0; j < J; ++j) {
+          acc.path[j] += c.path[j];
+          for (std::size_t t = 0; t < T; ++t) acc.pointwise[j][t] += c.pointwise[j][t];
+        }
+      }
+      total.merge_all(partial, threads);
+    }
+    done = next;
+    out.samples = static_cast<long long>(R) * done;
+
+    // The stopping rule on every reported probability.
+    const double N = static_cast<double>(out.samples);
+    bool met = true;
+    auto accept = [&](const std::vector<long long>& counts, double bound) {
+      const auto [mean, se] = replicate_estimate(counts, done);
+      const double absolute = target.absolute * bound;
+      const bool seen = mean > 0.0;
+      return se <= std::max(target.relative * mean, absolute) && (seen || 3.0 / N <= absolute);
+    };
+    std::vector<long long> counts(static_cast<std::size_t>(R));
+    for (std::size_t j = 0; j < J && met; ++j) {
+      const double bound = constraints[j].max_probability();
+      for (int r = 0; r < R; ++r) counts[static_cast<std::size_t>(r)] = per_replicate[static_cast<std::size_t>(r)].path[j];
+      met = met && accept(counts, bound);
+      for (std::size_t t = 0; t < T && met; ++t) {
+        if (!constraints[j].in_window(times[static_cast<Eigen::Index>(t)])) continue;
+        for (int r = 0; r < R; ++r) counts[static_cast<std::size_t>(r)] = per_replicate[static_cast<std::size_t>(r)].pointwise[j][t];
+        met = met && accept(counts, bound);
+      }
+    }
+    if (met && J > 0) {
+      for (int r = 0; r < R; ++r) counts[static_cast<std::size_t>(r)] = per_replicate[static_cast<std::size_t>(r)].joint;
+      met = accept(counts, smallest_bound);
+    }
+    out.target_met = met;
+    if (met) break;
+    next *= 2;
+  }
+
+  out.results = total.results();
+  // Replicate standard errors in place of the binomial ones.
+  if (done > 0) {
+    std::vector<long long> counts(static_cast<std::size_t>(R));
+    for (std::size_t j = 0; j < J; ++j) {
+      auto& s = out.results.constraints[j];
+      for (int r = 0; r < R; ++r) counts[static_cast<std::size_t>(r)] = per_replicate[static_cast<std::size_t>(r)].path[j];
+      s.path_standard_error = replicate_estimate(counts, done).second;
+      for (std::size_t t = 0; t < T; ++t) {
+        if (!s.in_window[t]) continue;
+        for (int r = 0; r < R; ++r) counts[static_cast<std::size_t>(r)] = per_replicate[static_cast<std::size_t>(r)].pointwise[j][t];
+        s.pointwise_standard_error[static_cast<Eigen::Index>(t)] = replicate_estimate(counts, done).second;
+      }
+    }
+    for (int r = 0; r < R; ++r) counts[static_cast<std::size_t>(r)] = per_replicate[static_cast<std::size_t>(r)].joint;
+    out.results.joint_standard_error = replicate_estimate(counts, done).second;
+  }
+  return out;
 }
 
 }  // namespace sigmatube::constraints

@@ -2,6 +2,7 @@
 #include "sigmatube/model/batch_propagator.h"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <limits>
 #include <optional>
@@ -15,54 +16,9 @@
 #include "sigmatube/model/integrator.h"
 #include "sigmatube/model/plan.h"
 #include "sigmatube/model/plugin_model.h"
+#include "lane_kernels.h"
 
 namespace sigmatube::model {
-
-namespace {
-
-// One RK stage of the HCW closed loop for all lanes (6 states, 3 inputs):
-//   u = u_ff − K (x − x_ref)  (Controller::command: j outer, i inner, e = 0 skipped),
-//   a = clamp(scale·u + bias, low, high),  dx = HillClohessyWiltshire::rhs(x, a, n).
-// Operation for operation the one-run path, so the results are bit-identical.
-void hcw_closed_loop_stage(std::size_t L, const double* __restrict x, const double* __restrict x_ref,
-                           const double* __restrict u_ff, const double* __restrict K, const double* __restrict scale,
-                           const double* __restrict bias, const double* __restrict low, const double* __restrict high,
-                           const double* __restrict mean_motion, double* __restrict u_cmd, double* __restrict u_app,
-                           double* __restrict dx) {
-  constexpr int n = 6, m = 3;
-  for (std::size_t l = 0; l < L; ++l) {
-    double xs[n], u[m];
-    for (int j = 0; j < n; ++j) xs[j] = x[j * L + l];
-    for (int i = 0; i < m; ++i) u[i] = u_ff[i];
-    // Selects of values computed unconditionally; the results are those of the
-    // branches of the one-run path.
-    for (int j = 0; j < n; ++j) {
-      const double e = xs[j] - x_ref[j];
-      for (int i = 0; i < m; ++i) {
-        const double term = K[i * n + j] * e;
-        u[i] -= e != 0.0 ? term : 0.0;
-      }
-    }
-    double a[m];
-    for (int i = 0; i < m; ++i) {
-      double v = scale[i * L + l] * u[i] + bias[i * L + l];
-      v = v < low[i] ? low[i] : v;  // std::clamp(v, low, high), NaN passed through alike
-      v = high[i] < v ? high[i] : v;
-      a[i] = v;
-      u_cmd[i * L + l] = u[i];
-      u_app[i * L + l] = a[i];
-    }
-    const double nl = mean_motion[l];
-    dx[l] = xs[3];
-    dx[L + l] = xs[4];
-    dx[2 * L + l] = xs[5];
-    dx[3 * L + l] = 3.0 * nl * nl * xs[0] + 2.0 * nl * xs[4] + a[0];
-    dx[4 * L + l] = -2.0 * nl * xs[3] + a[1];
-    dx[5 * L + l] = -nl * nl * xs[2] + a[2];
-  }
-}
-
-}  // namespace
 
 BatchPropagator::BatchPropagator(const ClosedLoop& closed_loop, const casefile::CaseOptions& options)
     : closed_loop_(closed_loop), simulation_(options.simulation) {
@@ -95,6 +51,8 @@ BatchPropagator::BatchPropagator(const ClosedLoop& closed_loop, const casefile::
     input_high_(it - inputs.begin()) = limit.high;
   }
 }
+
+const char* BatchPropagator::instruction_set() { return lanes::active_target(); }
 
 void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* rows, std::size_t row_stride,
                           std::uint8_t* ok) const {
@@ -151,8 +109,6 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
   const std::size_t nL = static_cast<std::size_t>(n) * L, mL = static_cast<std::size_t>(m) * L;
   std::vector<double> x(nL), y(nL), k1(nL), k2(nL), k3(nL), k4(nL);
   std::vector<double> u_cmd(mL), u_app(mL);
-  std::vector<double> x_ref(static_cast<std::size_t>(n)), u_ff(static_cast<std::size_t>(m));
-  std::vector<double> gain(static_cast<std::size_t>(m) * n);  // Kt(i, j) at [i·n + j]
   std::vector<double> unit(static_cast<std::size_t>(n), 0.0), zero_n(static_cast<std::size_t>(n), 0.0),
       zero_m(static_cast<std::size_t>(m), 0.0), column(static_cast<std::size_t>(m));
   std::vector<double> lane_x(static_cast<std::size_t>(n)), lane_u(static_cast<std::size_t>(m)),
@@ -166,61 +122,64 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
   for (const auto& program : programs_) scratch_size = std::max(scratch_size, program.scratch_size(L));
   std::vector<double> scratch(scratch_size);
 
-  // u_cmd = u_ff − Kt (x − x_ref) and u_app = clamp(scale·u_cmd + bias), for
-  // every lane, in Controller::command's order: Kt(i, j) is read back from the
-  // controller exactly (command at a unit error gives −Kt(i, j), negated back).
-  // Plan and gain depend on t only: RK4 asks twice at t + h/2, so keep the last.
-  double cached_t = std::numeric_limits<double>::quiet_NaN();
+  // Plan and gain at a stage time: x_ref, u_ff and Kt(i, j) at [i·n + j], read
+  // back from the controller exactly (command at a unit error gives −Kt(i, j),
+  // negated back). They depend on t only: kept for the last few stage times
+  // (RK4 asks at t, t + h/2 twice and t + h, which is often the next step's t).
   const bool open_loop = controller.open_loop();  // Controller::command adds no feedback at all
   const bool constant_gain = controller.gain_times().size() <= 1;
+  struct Terms {
+    double t = std::numeric_limits<double>::quiet_NaN();
+    unsigned long long used = 0;  // least recently used is replaced: the three of one step stay
+    std::vector<double> x_ref, u_ff, gain;
+    lanes::StageTerms view() const { return {x_ref.data(), u_ff.data(), gain.data()}; }
+  };
+  std::array<Terms, 4> cache;
+  for (auto& c : cache) {
+    c.x_ref.resize(static_cast<std::size_t>(n));
+    c.u_ff.resize(static_cast<std::size_t>(m));
+    c.gain.resize(static_cast<std::size_t>(m) * n);
+  }
+  unsigned long long clock = 0;
   bool gain_ready = false;
-  std::vector<double> error(L);
-  auto prepare = [&](double t) {
-    if (!(t == cached_t)) {
-      plan.evaluate(t, x_ref.data(), u_ff.data());
-      for (int j = 0; j < n && !(constant_gain && gain_ready); ++j) {
+  std::vector<double> constant_gain_values(static_cast<std::size_t>(m) * n);
+  auto terms = [&](double t) -> const Terms& {
+    ++clock;
+    for (auto& c : cache)
+      if (c.t == t) {
+        c.used = clock;
+        return c;
+      }
+    Terms& c = *std::min_element(cache.begin(), cache.end(), [](const Terms& p, const Terms& q) { return p.used < q.used; });
+    c.used = clock;
+    plan.evaluate(t, c.x_ref.data(), c.u_ff.data());
+    if (constant_gain && gain_ready) {
+      c.gain = constant_gain_values;
+    } else {
+      for (int j = 0; j < n; ++j) {
         unit[static_cast<std::size_t>(j)] = 1.0;
         controller.command(t, unit.data(), zero_n.data(), zero_m.data(), column.data());
         unit[static_cast<std::size_t>(j)] = 0.0;
-        for (int i = 0; i < m; ++i) gain[static_cast<std::size_t>(i) * n + j] = -column[static_cast<std::size_t>(i)];
+        for (int i = 0; i < m; ++i) c.gain[static_cast<std::size_t>(i) * n + j] = -column[static_cast<std::size_t>(i)];
       }
-      cached_t = t;
+      constant_gain_values = c.gain;
       gain_ready = true;
     }
+    c.t = t;
+    return c;
   };
+  std::vector<double> error(L);
   auto inputs_at = [&](double t, const double* state) {
-    prepare(t);
-    for (int i = 0; i < m; ++i) {
-      double* u = u_cmd.data() + i * L;
-      std::fill(u, u + L, u_ff[static_cast<std::size_t>(i)]);
-    }
-    for (int j = 0; j < n && !open_loop; ++j) {
-      const double* xj = state + j * L;
-      const double rj = x_ref[static_cast<std::size_t>(j)];
-      double* e = error.data();
-      for (std::size_t l = 0; l < L; ++l) e[l] = xj[l] - rj;
-      for (int i = 0; i < m; ++i) {
-        const double K = gain[static_cast<std::size_t>(i) * n + j];
-        double* u = u_cmd.data() + i * L;
-        // Controller::command skips e == 0; subtracting +0.0 is the same for every u (also −0).
-        for (std::size_t l = 0; l < L; ++l) u[l] -= e[l] != 0.0 ? K * e[l] : 0.0;
-      }
-    }
-    for (int i = 0; i < m; ++i) {
-      const double lo = input_low_(i), hi = input_high_(i);
-      const double *u = u_cmd.data() + i * L, *s = scale.data() + i * L, *b = bias.data() + i * L;
-      double* a = u_app.data() + i * L;
-      for (std::size_t l = 0; l < L; ++l) a[l] = std::clamp(s[l] * u[l] + b[l], lo, hi);
-    }
+    lanes::closed_loop_inputs(L, n, m, state, terms(t).view(), !open_loop, scale.data(), bias.data(),
+                              input_low_.data(), input_high_.data(), error.data(), u_cmd.data(), u_app.data());
   };
+  const lanes::HcwLanes hcw_lanes{scale.data(), bias.data(), input_low_.data(), input_high_.data(), params.data()};
 
   auto rhs = [&](double t, const double* state, double* dxdt) {
     if (hcw_ && !open_loop) {
       // Fused: feedback, saturation and HillClohessyWiltshire::rhs per lane with
       // the lane's values in registers, in exactly the order of the one-run path.
-      prepare(t);
-      hcw_closed_loop_stage(L, state, x_ref.data(), u_ff.data(), gain.data(), scale.data(), bias.data(),
-                            input_low_.data(), input_high_.data(), params.data(), u_cmd.data(), u_app.data(), dxdt);
+      lanes::hcw_stage(L, state, terms(t).view(), hcw_lanes, u_cmd.data(), u_app.data(), dxdt);
     } else if (hcw_) {
       inputs_at(t, state);
       // HillClohessyWiltshire::rhs, lane by lane in one loop.
@@ -274,14 +233,6 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
     }
   };
 
-  auto check = [&](const double* state) {
-    for (int i = 0; i < n; ++i)
-      for (std::size_t l = 0; l < L; ++l) {
-        const double v = state[i * L + l];
-        if (!std::isfinite(v) || std::abs(v) > OdeIntegrator::kDivergenceBound) ok[l] = 0;
-      }
-  };
-
   auto observe = [&](Eigen::Index k, double t, const double* state) {
     inputs_at(t, state);
     for (std::size_t l = 0; l < L; ++l) {
@@ -305,9 +256,12 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
     for (std::size_t l = 0; l < L; ++l)
       for (int i = 0; i < n; ++i) x[i * L + l] = x0(i) + perturbations[l].initial_offset(i);
   }
-  check(x.data());
+  lanes::check_lanes(L, n, x.data(), OdeIntegrator::kDivergenceBound, ok);
   observe(0, times.front(), x.data());
 
+  // The whole RK4 step in one lane kernel where the model allows (built-in HCW
+  // with feedback, no disturbance); the stages one by one otherwise.
+  const bool fused_step = hcw_ && !open_loop && !disturbed;
   // Classical RK4 with OdeIntegrator::integrate_rk4's step rule and expression order.
   for (std::size_t k = 1; k < times.size(); ++k) {
     const double span = times[k] - times[k - 1];
@@ -317,15 +271,21 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
     const double half = 0.5 * h, sixth = h / 6.0;
     for (long long s = 0; s < pieces; ++s) {
       const double t = times[k - 1] + static_cast<double>(s) * h;
+      if (fused_step) {
+        const lanes::StageTerms a = terms(t).view(), b = terms(t + 0.5 * h).view(), c = terms(t + h).view();
+        lanes::hcw_rk4_step(L, x.data(), y.data(), h, a, b, c, hcw_lanes, OdeIntegrator::kDivergenceBound, ok);
+        std::swap(x, y);
+        continue;
+      }
       rhs(t, x.data(), k1.data());
-      for (std::size_t q = 0; q < nL; ++q) y[q] = x[q] + half * k1[q];
+      lanes::axpy(nL, x.data(), half, k1.data(), y.data());
       rhs(t + 0.5 * h, y.data(), k2.data());
-      for (std::size_t q = 0; q < nL; ++q) y[q] = x[q] + half * k2[q];
+      lanes::axpy(nL, x.data(), half, k2.data(), y.data());
       rhs(t + 0.5 * h, y.data(), k3.data());
-      for (std::size_t q = 0; q < nL; ++q) y[q] = x[q] + h * k3[q];
+      lanes::axpy(nL, x.data(), h, k3.data(), y.data());
       rhs(t + h, y.data(), k4.data());
-      for (std::size_t q = 0; q < nL; ++q) x[q] += sixth * (k1[q] + 2.0 * k2[q] + 2.0 * k3[q] + k4[q]);
-      check(x.data());
+      lanes::rk4_combine(nL, x.data(), sixth, k1.data(), k2.data(), k3.data(), k4.data());
+      lanes::check_lanes(L, n, x.data(), OdeIntegrator::kDivergenceBound, ok);
     }
     observe(static_cast<Eigen::Index>(k), times[k], x.data());
   }

@@ -10,6 +10,7 @@
 #include <numbers>
 
 #include "sigmatube/core/counter_rng.h"
+#include "lane_kernels.h"
 
 namespace sigmatube::model {
 namespace {
@@ -196,7 +197,10 @@ constexpr int kSelfCheckPoints = 16;
 std::optional<LaneExpression> LaneExpression::compile(const std::string& text, const std::vector<std::string>& names) {
   LaneExpression program;
   Compiler compiler(text, names);
-  if (!compiler.compile(program.ops_, program.depth_) || program.ops_.empty()) return std::nullopt;
+  std::vector<Op> ops;
+  int depth = 0;
+  if (!compiler.compile(ops, depth) || ops.empty()) return std::nullopt;
+  program.code_ = to_registers(ops, program.slots_);
 
   // Self-check against muparser at points from the counter-based generator.
   try {
@@ -225,62 +229,164 @@ std::optional<LaneExpression> LaneExpression::compile(const std::string& text, c
   return program;
 }
 
-void LaneExpression::evaluate(const double* const* variables, std::size_t lanes, double* result, double* scratch) const {
-  int top = -1;  // stack slot s holds lanes values at scratch + s·lanes
-  auto slot = [&](int s) { return scratch + static_cast<std::size_t>(s) * lanes; };
-  for (const Op& op : ops_) {
+// Postfix to register form: the stack is simulated at compile time with
+// operand descriptors, so pushing a variable or a constant costs nothing at run
+// time; an operation at stack position p writes slot p.
+std::vector<LaneExpression::Instruction> LaneExpression::to_registers(const std::vector<Op>& ops, int& slots) {
+  using I = Instruction;
+  std::vector<I> code;
+  std::vector<Operand> stack;
+  slots = 1;
+  auto result_slot = [&](std::size_t position) {
+    slots = std::max(slots, static_cast<int>(position) + 1);
+    return Operand{Operand::Kind::slot, static_cast<int>(position), 0.0};
+  };
+  auto binary = [&](I::Kind kind) {
+    const Operand b = stack.back();
+    stack.pop_back();
+    const Operand a = stack.back();
+    const std::size_t p = stack.size() - 1;
+    if (kind == I::Kind::pow && b.kind == Operand::Kind::constant && b.value == 2.0) {
+      code.push_back({I::Kind::square, static_cast<int>(p), a, {}, nullptr});  // muparser's x^2 is x·x too
+    } else {
+      code.push_back({kind, static_cast<int>(p), a, b, nullptr});
+    }
+    stack.back() = result_slot(p);
+  };
+  for (const Op& op : ops) {
     switch (op.kind) {
-      case Op::Kind::constant: {
-        double* a = slot(++top);
-        for (std::size_t l = 0; l < lanes; ++l) a[l] = op.value;
-        break;
-      }
-      case Op::Kind::variable: {
-        double* a = slot(++top);
-        const double* v = variables[op.index];
-        for (std::size_t l = 0; l < lanes; ++l) a[l] = v[l];
-        break;
-      }
-      case Op::Kind::add: case Op::Kind::sub: case Op::Kind::mul: case Op::Kind::div: case Op::Kind::pow: {
-        double* a = slot(top - 1);
-        const double* b = slot(top);
-        --top;
-        switch (op.kind) {
-          case Op::Kind::add: for (std::size_t l = 0; l < lanes; ++l) a[l] += b[l]; break;
-          case Op::Kind::sub: for (std::size_t l = 0; l < lanes; ++l) a[l] -= b[l]; break;
-          case Op::Kind::mul: for (std::size_t l = 0; l < lanes; ++l) a[l] *= b[l]; break;
-          case Op::Kind::div: for (std::size_t l = 0; l < lanes; ++l) a[l] /= b[l]; break;
-          default: for (std::size_t l = 0; l < lanes; ++l) a[l] = std::pow(a[l], b[l]); break;
-        }
-        break;
-      }
-      case Op::Kind::neg: {
-        double* a = slot(top);
-        for (std::size_t l = 0; l < lanes; ++l) a[l] = -a[l];
-        break;
-      }
-      case Op::Kind::function: {
-        double* a = slot(top);
-        for (std::size_t l = 0; l < lanes; ++l) a[l] = op.function(a[l]);
+      case Op::Kind::constant: stack.push_back({Operand::Kind::constant, 0, op.value}); break;
+      case Op::Kind::variable: stack.push_back({Operand::Kind::variable, op.index, 0.0}); break;
+      case Op::Kind::add: binary(I::Kind::add); break;
+      case Op::Kind::sub: binary(I::Kind::sub); break;
+      case Op::Kind::mul: binary(I::Kind::mul); break;
+      case Op::Kind::div: binary(I::Kind::div); break;
+      case Op::Kind::pow: binary(I::Kind::pow); break;
+      case Op::Kind::neg: case Op::Kind::function: {
+        const std::size_t p = stack.size() - 1;
+        code.push_back({op.kind == Op::Kind::neg ? I::Kind::neg : I::Kind::function, static_cast<int>(p), stack.back(), {},
+                        op.function});
+        stack.back() = result_slot(p);
         break;
       }
       case Op::Kind::min: case Op::Kind::max: case Op::Kind::sum: case Op::Kind::avg: {
-        const int first = top - op.index + 1;
-        double* a = slot(first);
-        for (int s = first + 1; s <= top; ++s) {
-          const double* b = slot(s);
-          if (op.kind == Op::Kind::min) for (std::size_t l = 0; l < lanes; ++l) a[l] = std::min(a[l], b[l]);
-          else if (op.kind == Op::Kind::max) for (std::size_t l = 0; l < lanes; ++l) a[l] = std::max(a[l], b[l]);
-          else for (std::size_t l = 0; l < lanes; ++l) a[l] += b[l];
+        // Left to right, as the stack loop of the postfix form: a = a (op) b for each further argument.
+        const std::size_t first = stack.size() - static_cast<std::size_t>(op.index);
+        const I::Kind kind = op.kind == Op::Kind::min ? I::Kind::min : op.kind == Op::Kind::max ? I::Kind::max : I::Kind::add;
+        Operand acc = stack[first];
+        for (std::size_t s = first + 1; s < stack.size(); ++s) {
+          code.push_back({kind, static_cast<int>(first), acc, stack[s], nullptr});
+          acc = result_slot(first);
         }
-        if (op.kind == Op::Kind::avg) for (std::size_t l = 0; l < lanes; ++l) a[l] /= op.index;
-        top = first;
+        if (op.kind == Op::Kind::avg) {
+          code.push_back({I::Kind::div, static_cast<int>(first), acc, {Operand::Kind::constant, 0, static_cast<double>(op.index)}, nullptr});
+          acc = result_slot(first);
+        }
+        stack.resize(first + 1);
+        stack.back() = acc;
         break;
       }
     }
   }
-  const double* a = slot(0);
-  for (std::size_t l = 0; l < lanes; ++l) result[l] = a[l];
+  if (stack.back().kind != Operand::Kind::slot) code.push_back({I::Kind::copy, 0, stack.back(), {}, nullptr});
+  return code;
+}
+
+namespace {
+using Instruction = LaneExpression::Instruction;
+using IK = Instruction::Kind;
+
+// The lane loops, multiversioned like the other lane kernels (AVX2 without FMA
+// and the baseline, bit-identical). `a`, `b` arrays; `c` a constant.
+SIGMATUBE_LANE_TARGETS
+void lanes_aa(IK kind, std::size_t n, const double* a, const double* b, double* out) {
+  switch (kind) {
+    case IK::add: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] + b[l]; break;
+    case IK::sub: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] - b[l]; break;
+    case IK::mul: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] * b[l]; break;
+    case IK::div: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] / b[l]; break;
+    case IK::min: for (std::size_t l = 0; l < n; ++l) out[l] = b[l] < a[l] ? b[l] : a[l]; break;  // std::min
+    case IK::max: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] < b[l] ? b[l] : a[l]; break;  // std::max
+    default: for (std::size_t l = 0; l < n; ++l) out[l] = std::pow(a[l], b[l]); break;
+  }
+}
+SIGMATUBE_LANE_TARGETS
+void lanes_ac(IK kind, std::size_t n, const double* a, double c, double* out) {
+  switch (kind) {
+    case IK::add: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] + c; break;
+    case IK::sub: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] - c; break;
+    case IK::mul: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] * c; break;
+    case IK::div: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] / c; break;
+    case IK::min: for (std::size_t l = 0; l < n; ++l) out[l] = c < a[l] ? c : a[l]; break;
+    case IK::max: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] < c ? c : a[l]; break;
+    default: for (std::size_t l = 0; l < n; ++l) out[l] = std::pow(a[l], c); break;
+  }
+}
+SIGMATUBE_LANE_TARGETS
+void lanes_ca(IK kind, std::size_t n, double c, const double* b, double* out) {
+  switch (kind) {
+    case IK::add: for (std::size_t l = 0; l < n; ++l) out[l] = c + b[l]; break;
+    case IK::sub: for (std::size_t l = 0; l < n; ++l) out[l] = c - b[l]; break;
+    case IK::mul: for (std::size_t l = 0; l < n; ++l) out[l] = c * b[l]; break;
+    case IK::div: for (std::size_t l = 0; l < n; ++l) out[l] = c / b[l]; break;
+    case IK::min: for (std::size_t l = 0; l < n; ++l) out[l] = b[l] < c ? b[l] : c; break;
+    case IK::max: for (std::size_t l = 0; l < n; ++l) out[l] = c < b[l] ? b[l] : c; break;
+    default: for (std::size_t l = 0; l < n; ++l) out[l] = std::pow(c, b[l]); break;
+  }
+}
+SIGMATUBE_LANE_TARGETS
+void lanes_unary(IK kind, std::size_t n, const double* a, double* out) {
+  switch (kind) {
+    case IK::neg: for (std::size_t l = 0; l < n; ++l) out[l] = -a[l]; break;
+    case IK::square: for (std::size_t l = 0; l < n; ++l) out[l] = a[l] * a[l]; break;
+    default: for (std::size_t l = 0; l < n; ++l) out[l] = a[l]; break;
+  }
+}
+}  // namespace
+
+void LaneExpression::evaluate(const double* const* variables, std::size_t lanes, double* result, double* scratch) const {
+  // Slot 0 is the result: written straight into `result`.
+  auto slot = [&](int s) { return s == 0 ? result : scratch + static_cast<std::size_t>(s) * lanes; };
+  auto array = [&](const Operand& o) -> const double* {
+    return o.kind == Operand::Kind::variable ? variables[o.index] : slot(o.index);
+  };
+  for (const Instruction& in : code_) {
+    double* out = slot(in.out);
+    const bool a_const = in.a.kind == Operand::Kind::constant;
+    switch (in.kind) {
+      case IK::copy: case IK::neg: case IK::square:
+        if (a_const) {
+          const double v = in.kind == IK::neg ? -in.a.value : in.kind == IK::square ? in.a.value * in.a.value : in.a.value;
+          std::fill(out, out + lanes, v);
+        } else {
+          lanes_unary(in.kind, lanes, array(in.a), out);
+        }
+        break;
+      case IK::function:
+        if (a_const) {
+          std::fill(out, out + lanes, in.function(in.a.value));
+        } else {
+          const double* a = array(in.a);
+          for (std::size_t l = 0; l < lanes; ++l) out[l] = in.function(a[l]);
+        }
+        break;
+      default: {
+        const bool b_const = in.b.kind == Operand::Kind::constant;
+        if (a_const && b_const) {
+          double v = 0.0;
+          lanes_ac(in.kind, 1, &in.a.value, in.b.value, &v);
+          std::fill(out, out + lanes, v);
+        } else if (b_const) {
+          lanes_ac(in.kind, lanes, array(in.a), in.b.value, out);
+        } else if (a_const) {
+          lanes_ca(in.kind, lanes, in.a.value, array(in.b), out);
+        } else {
+          lanes_aa(in.kind, lanes, array(in.a), array(in.b), out);
+        }
+        break;
+      }
+    }
+  }
 }
 
 }  // namespace sigmatube::model

@@ -121,7 +121,7 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
                               for (int j = 0; j < d; ++j) wave_xi(static_cast<Eigen::Index>(r), j) = point[static_cast<std::size_t>(j)];
                             }
                           });
-      wave_outputs.setConstant(wave_rows, columns, kNaN);
+      wave_outputs.resize(wave_rows, columns);  // every row is written by run_rows (read only where ok)
       wave_ok.assign(static_cast<std::size_t>(wave_rows), 0);
       run_options.run_rows(wave_begin, wave_end, wave_xi, wave_outputs.data(), wave_ok.data());
     }

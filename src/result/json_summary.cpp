@@ -68,6 +68,8 @@ std::string json_summary(const AnalysisResult& r) {
     o << "    \"tolerance_met\": " << boolean(s.tolerance_met) << ",\n";
     o << "    \"error_estimate\": " << per_output(r, s.error_estimate) << ",\n";
     o << "    \"samples\": " << s.samples << ",\n";
+    o << "    \"sampling\": " << json_string(s.sampling) << ",\n";
+    o << "    \"sampling_target_met\": " << boolean(s.sampling_target_met) << ",\n";
     o << "    \"joint_path_probability\": " << json_number(s.joint_path_probability) << ",\n";
     o << "    \"karhunen_loeve\": " << strings(s.karhunen_loeve) << "\n";
     o << "  },\n";

@@ -191,6 +191,8 @@ void write_surrogate(H5::H5File& file, const AnalysisResult& r) {
   write_attribute(g, "degree_reached", static_cast<long long>(s.degree_reached));
   write_attribute(g, "tolerance_met", static_cast<long long>(s.tolerance_met ? 1 : 0));
   write_attribute(g, "samples", s.samples);
+  write_attribute(g, "sampling", s.sampling);
+  write_attribute(g, "sampling_target_met", static_cast<long long>(s.sampling_target_met ? 1 : 0));
   write_attribute(g, "joint_path_probability", s.joint_path_probability);
   {
     const hsize_t dims[2] = {static_cast<hsize_t>(s.multi_indices.rows()),
@@ -758,6 +760,8 @@ AnalysisResult read_all(const std::string& path) {
     s.degree_reached = static_cast<int>(reader.attribute_int(g, "degree_reached", 0));
     s.tolerance_met = reader.attribute_int(g, "tolerance_met", 1) != 0;
     s.samples = reader.attribute_int(g, "samples", 0);
+    s.sampling = g.attrExists("sampling") ? reader.attribute_string(g, "sampling") : "fixed";
+    s.sampling_target_met = reader.attribute_int(g, "sampling_target_met", 1) != 0;
     s.joint_path_probability = reader.attribute_double(g, "joint_path_probability", kNaN);
     {
       H5::DataSet ds = reader.open(g, "multi_indices");

@@ -217,7 +217,13 @@ std::string summary_text(const AnalysisResult& r, bool color) {
     out << wrap(germ, 78, "  germ         ");
     out << "  basis size   " << s.multi_indices.rows() << " polynomials\n";
     out << "  model runs   " << s.model_runs << "\n";
-    if (s.samples > 0) out << "  samples      " << s.samples << " surrogate samples for probabilities\n";
+    if (s.samples > 0) {
+      out << "  samples      " << s.samples << " surrogate samples for probabilities";
+      if (s.sampling == "precision")
+        out << (s.sampling_target_met ? " (scrambled Sobol replicates, target precision met)"
+                                      : " (scrambled Sobol replicates, stopped at the samples cap before the target precision)");
+      out << "\n";
+    }
     double worst = kNaN;
     const std::string name = worst_output(r, s.error_estimate, &worst);
     out << "  error        estimate " << format_probability(worst) << " (worst output: " << name << ")\n";

@@ -7,6 +7,8 @@
 
 #include <cmath>
 
+#include "sphere_constraint.h"
+
 namespace sigmatube::constraints {
 namespace {
 
@@ -32,15 +34,8 @@ struct Evaluated {
 };
 
 Evaluated evaluate(double radius, double epsilon) {
-  casefile::ConstraintOptions o;
-  o.name = "keep-out";
-  o.type = casefile::ConstraintKind::outside_sphere;
-  o.position = {"x", "y", "z"};
-  o.center = {0, 0, 0};
-  o.radius = radius;
-  o.max_probability = epsilon;
   Evaluated e;
-  e.constraints.emplace_back(o, kOutputs);
+  e.constraints.emplace_back(test::keep_out_sphere(radius, epsilon), kOutputs);
   ViolationStatistics stats(e.constraints, kTimes, 3, kSamples);
   stats.add(distances());
   e.results = stats.results();

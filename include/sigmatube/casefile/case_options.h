@@ -188,6 +188,12 @@ struct ConstraintOptions {
 enum class SurrogateMethod { sparse_grid, tensor_grid, regression, adaptive_sparse_grid, sparse_regression };
 enum class RegressionDesign { sobol, latin_hypercube };
 
+/// How surrogate samples are drawn: "precision" — scrambled Sobol replicates
+/// until every probability's standard error meets the target
+/// (constraints::stream_to_precision), `samples` the cap; "fixed" — exactly
+/// `samples` pseudo-random points.
+enum class SurrogateSampling { precision, fixed };
+
 /// [surrogate]
 struct SurrogateOptions {
   SurrogateMethod method = SurrogateMethod::sparse_grid;
@@ -197,7 +203,10 @@ struct SurrogateOptions {
   bool adaptive = false;       // raise level/degree until every error estimate < tolerance
   double tolerance = 1e-3;     // relative error estimate per output
   int max_model_runs = 2000;
-  long long samples = 1000000; // surrogate samples for probabilities
+  long long samples = 1000000; // surrogate samples for probabilities: the cap with "precision" sampling
+  SurrogateSampling sampling = SurrogateSampling::precision;
+  double sampling_relative_error = 0.01;  // precision: standard error ≤ this × probability, or
+  double sampling_absolute_error = 0.05;  // ≤ this × the constraint's max_probability
   double oversampling = 2.0;   // regression: runs = ceil(oversampling · basis size); the reader requires ≥ 2
   RegressionDesign design = RegressionDesign::sobol;
   bool nested = false;         // sparse-grid: nested Clenshaw–Curtis for uniform (Legendre) germs

@@ -36,4 +36,21 @@ ViolationResults sample_surrogate(const std::vector<Constraint>& list, const exp
                                   unsigned long long seed, int threads,
                                   const std::function<void(long long done)>& progress);
 
+/// The case's sampling: with `options.sampling` "precision" (and a germ of at most
+/// ScrambledSobol::max_dimension() dimensions) scrambled Sobol replicates until
+/// every probability meets the target, at most `cap` samples
+/// (stream_to_precision); otherwise exactly `cap` pseudo-random samples
+/// (sample_surrogate).
+struct SurrogateSampling {
+  ViolationResults results;
+  long long samples = 0;    // samples used
+  bool precision = false;   // drawn by "precision" sampling
+  bool target_met = true;
+};
+SurrogateSampling sample_surrogate_to_target(const std::vector<Constraint>& list, const expansion::Surrogate& surrogate,
+                                             const germ::Germ& germ, const Eigen::VectorXd& times_in_seconds,
+                                             const casefile::SurrogateOptions& options, long long cap,
+                                             unsigned long long seed, int threads,
+                                             const std::function<void(long long done)>& progress);
+
 }  // namespace sigmatube::constraints

@@ -87,8 +87,22 @@ class ViolationStatistics {
   void add(const Eigen::Ref<const Eigen::MatrixXd>& Y, const std::vector<std::uint8_t>& keep, long long first_sample);
   /// Folds in an accumulator over later samples (call in sample order).
   void merge(const ViolationStatistics& later);
+  /// The same as merge(later[0]), merge(later[1]), … (bit for bit), with the
+  /// report times spread over `threads` threads and the kept smallest values
+  /// merged in bulk (one selection per time instead of a heap push per value).
+  void merge_all(const std::vector<ViolationStatistics>& later, int threads);
   long long samples() const { return n_; }
   ViolationResults results() const;
+
+  /// Violation counts so far: what the replicate standard errors of
+  /// stream_to_precision() are made of.
+  struct Counts {
+    long long samples = 0;
+    std::vector<long long> path;                      // [constraints]
+    std::vector<std::vector<long long>> pointwise;    // [constraints][T]
+    long long joint = 0;
+  };
+  Counts counts() const;
 
   /// Per-sample minimum clearance over the window's report times ([n]); +∞ never
   /// occurs because construction rejects windows without a report time.
@@ -122,5 +136,44 @@ ViolationResults stream_violation_statistics(
     const std::vector<Constraint>& constraints, const Eigen::VectorXd& times_in_seconds, int n_outputs,
     long long count, long long chunk, int threads,
     const std::function<void(long long begin, long long end, Eigen::MatrixXd& Y)>& fill);
+
+/// Sampling by target precision with randomized quasi-Monte Carlo
+/// (core/scrambled_sobol.h): R independently scrambled replicates of the same
+/// Sobol points are sampled side by side, n = first_points, 2·first_points, …
+/// points each (powers of two keep the Sobol balance). After each doubling every
+/// reported probability q — each constraint's path probability, its pointwise
+/// probability at every report time in the window, and the joint probability —
+/// has the replicate estimate q̄ = mean of q_r and the standard error
+/// s = sd(q_r)/√R. Sampling stops at the first check where, for every q,
+///   s ≤ max(relative · q̄, absolute · bound)   and   (any violation seen, or 3/N ≤ absolute · bound),
+/// bound being the constraint's max_probability (the smallest one for the joint
+/// probability) and N = R·n; the second condition keeps a run that has seen no
+/// violation from stopping before the "rule of three" 95 % upper bound 3/N is
+/// within the absolute tolerance. It also stops when the next doubling would
+/// exceed `cap` samples in all (the cap is then the sample count, rounded down to
+/// R times a power of two times first_points). Standard errors in the results are
+/// the replicate ones.
+struct PrecisionTarget {
+  long long cap = 1000000;       // most samples in all
+  int replicates = 16;           // R ≥ 2
+  long long first_points = 1024; // per replicate at the first check
+  double relative = 0.01;
+  double absolute = 0.05;        // × the constraint's max_probability
+};
+
+struct PrecisionSampling {
+  ViolationResults results;      // pooled over all replicates; replicate standard errors
+  long long samples = 0;         // R·n used
+  int replicates = 0;
+  bool target_met = false;       // false: stopped at the cap
+};
+
+/// fill(replicate, first, count, Y): rows of points first … first + count − 1 of
+/// that replicate into Y ([count, T·n_out]). Work items run on `threads` threads
+/// and merge in a fixed order: the result is bit-identical for any thread count.
+PrecisionSampling stream_to_precision(
+    const std::vector<Constraint>& constraints, const Eigen::VectorXd& times_in_seconds, int n_outputs,
+    const PrecisionTarget& target, long long chunk, int threads,
+    const std::function<void(int replicate, long long first, long long count, Eigen::MatrixXd& Y)>& fill);
 
 }  // namespace sigmatube::constraints

@@ -13,6 +13,9 @@
 // one-run path (expression programs: equal to muparser up to rounding); a lane whose state stops being finite or leaves ±1e12 is marked
 // failed and the caller reruns it through ClosedLoop::run for the message.
 // Supported: rk4 only (dopri5 adapts its step per run, which does not batch).
+// The lane loops (src/model/lane_kernels.h) are compiled for AVX2 and for the
+// x86-64 baseline and picked at load time; both give the same bits (no FMA
+// contraction), so results never depend on the CPU, threads or ranks.
 #include <cstddef>
 #include <cstdint>
 #include <vector>
@@ -35,6 +38,8 @@ class BatchPropagator {
 
   /// True when the batched path applies (fixed-step rk4).
   bool supported() const { return supported_; }
+  /// Instruction set the lane kernels run with on this CPU ("avx2" or "x86-64 baseline").
+  static const char* instruction_set();
   /// True when an expression model's right-hand sides run as lane programs.
   bool compiled_expressions() const { return !programs_.empty(); }
 

@@ -32,18 +32,37 @@ class LaneExpression {
   /// result[l] for l < lanes; variables[v] points at `lanes` values of variable v.
   /// `scratch` must hold scratch_size(lanes) doubles. No allocation.
   void evaluate(const double* const* variables, std::size_t lanes, double* result, double* scratch) const;
-  std::size_t scratch_size(std::size_t lanes) const { return static_cast<std::size_t>(depth_) * lanes; }
+  std::size_t scratch_size(std::size_t lanes) const { return static_cast<std::size_t>(slots_) * lanes; }
+  /// Number of lane instructions (each runs over all lanes).
+  std::size_t instruction_count() const { return code_.size(); }
 
+  /// Postfix form, as parsed.
   struct Op {
     enum class Kind { constant, variable, add, sub, mul, div, pow, neg, function, min, max, sum, avg } kind;
     double value = 0.0;            // constant
     int index = 0;                 // variable index, or argument count
     double (*function)(double) = nullptr;
   };
+  /// An operand of a lane instruction: a scratch slot, a variable or a constant.
+  struct Operand {
+    enum class Kind { slot, variable, constant } kind = Kind::slot;
+    int index = 0;
+    double value = 0.0;
+  };
+  /// Register form, run: out slot = a (op) b over all lanes. Variables and
+  /// constants are read in place (no copies onto a stack); n-ary min, max, sum
+  /// and avg become chains of binary instructions in muparser's order.
+  struct Instruction {
+    enum class Kind { copy, add, sub, mul, div, pow, square, neg, function, min, max } kind;
+    int out = 0;
+    Operand a, b;
+    double (*function)(double) = nullptr;
+  };
 
  private:
-  std::vector<Op> ops_;
-  int depth_ = 0;
+  static std::vector<Instruction> to_registers(const std::vector<Op>& ops, int& slots);
+  std::vector<Instruction> code_;
+  int slots_ = 0;
 };
 
 }  // namespace sigmatube::model

@@ -142,6 +142,8 @@ struct SurrogateResult {
   Eigen::VectorXd error_estimate;             // [n_out]
   std::vector<std::string> notes;
   long long samples = 0;                      // surrogate samples for probabilities
+  std::string sampling = "fixed";             // "precision" (scrambled Sobol replicates to a target) or "fixed"
+  bool sampling_target_met = true;            // precision: every standard error met the target before the cap
   double joint_path_probability = kNaN;
   std::vector<std::string> karhunen_loeve;    // one line per gaussian-process input
 

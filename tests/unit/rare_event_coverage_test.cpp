@@ -10,10 +10,13 @@
 
 #include "python_reference.h"
 #include "sigmatube/core/counter_rng.h"
+#include "sigmatube/montecarlo/rare_events.h"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <string>
 
 namespace sigmatube::montecarlo {
 namespace {
@@ -31,6 +34,36 @@ const std::vector<Ball> kBalls = {{3, 4.9, 1.0}, {3, 5.3, 1.0}, {4, 6.0, 1.5}, {
 constexpr double kMinimumCoverage = 0.90;
 constexpr double kMaximumCov = 0.15;
 constexpr long long kMaximumRuns = 5000;
+
+struct Sweep {
+  int covered = 0;
+  double worst_cov = 0.0;
+  long long most_runs = 0;
+};
+
+// Adaptive estimates for seeds first_seed, first_seed + 1, …: counts the intervals that
+// cover `exact`; with check_targets, each estimate must meet the targets above.
+Sweep sweep_seeds(const MixtureProposal& proposal, const ViolationIndicator& indicator, double exact, int n_seeds,
+                  unsigned long long first_seed, const std::string& label, bool check_targets) {
+  Sweep sweep;
+  for (int s = 0; s < n_seeds; ++s) {
+    ImportanceSamplingOptions options;
+    options.samples = kMaximumRuns;
+    options.cov_target = 0.1;
+    options.seed = first_seed + static_cast<unsigned long long>(s);
+    options.threads = 2;
+    const auto r = importance_sample(proposal, indicator, options);
+    if (check_targets) {
+      EXPECT_TRUE(r.converged) << label << " seed " << s << ": CoV " << r.coefficient_of_variation;
+      EXPECT_LE(r.samples, kMaximumRuns);
+      EXPECT_LE(r.coefficient_of_variation, kMaximumCov);
+    }
+    sweep.worst_cov = std::max(sweep.worst_cov, r.coefficient_of_variation);
+    sweep.most_runs = std::max(sweep.most_runs, r.samples);
+    if (r.lower <= exact && exact <= r.upper) ++sweep.covered;
+  }
+  return sweep;
+}
 
 TEST(RareEventCoverage, IntervalsCoverNoncentralChiSquareProbabilities) {
   std::string program = "from scipy.stats import ncx2\n";
@@ -50,30 +83,13 @@ TEST(RareEventCoverage, IntervalsCoverNoncentralChiSquareProbabilities) {
     const MostProbablePoint mpp = find_most_probable_point(g, b.dimension);
     ASSERT_TRUE(mpp.converged);
     EXPECT_NEAR(mpp.beta, b.distance - b.radius, 1e-6);  // the ball's nearest point to the origin
-    int here = 0;
-    double worst_cov = 0.0;
-    long long most_runs = 0;
-    for (int s = 0; s < n_seeds; ++s) {
-      ImportanceSamplingOptions options;
-      options.samples = kMaximumRuns;
-      options.cov_target = 0.1;
-      options.seed = 300 + static_cast<unsigned long long>(s);
-      options.threads = 2;
-      const auto r = importance_sample(
-          mpp.z, [&](const Eigen::VectorXd& z, long long, std::string*) { return g(z) <= 0.0 ? 1 : 0; }, options);
-      EXPECT_TRUE(r.converged) << "ball " << k << " seed " << s << ": CoV " << r.coefficient_of_variation;
-      EXPECT_LE(r.samples, kMaximumRuns);
-      EXPECT_LE(r.coefficient_of_variation, kMaximumCov);
-      worst_cov = std::max(worst_cov, r.coefficient_of_variation);
-      most_runs = std::max(most_runs, r.samples);
-      ++cases;
-      if (r.lower <= exact[k] && exact[k] <= r.upper) {
-        ++covered;
-        ++here;
-      }
-    }
+    const auto indicator = [&](const Eigen::VectorXd& z, long long, std::string*) { return g(z) <= 0.0 ? 1 : 0; };
+    const Sweep sweep = sweep_seeds(MixtureProposal::around(mpp.z), indicator, exact[k], n_seeds, 300,
+                                    "ball " + std::to_string(k), true);
+    cases += n_seeds;
+    covered += sweep.covered;
     std::printf("ball d=%d |c|=%.2f r=%.2f: exact %.4e, covered %d/%d, worst CoV %.3f, most runs %lld\n", b.dimension,
-                b.distance, b.radius, exact[k], here, n_seeds, worst_cov, most_runs);
+                b.distance, b.radius, exact[k], sweep.covered, n_seeds, sweep.worst_cov, sweep.most_runs);
   }
   const double coverage = static_cast<double>(covered) / cases;
   std::printf("coverage %.3f over %d seeded estimates\n", coverage, cases);
@@ -125,38 +141,19 @@ TEST(RareEventCoverage, MixtureIntervalsCoverTwoSeparateRegions) {
     ASSERT_EQ(points.size(), 2u) << "ball pair " << k;  // one per ball, duplicates merged
     EXPECT_NEAR(points[0].beta, std::min(b.distance[0], b.distance[1]) - b.radius, 1e-6);
     EXPECT_NEAR(points[1].beta, std::max(b.distance[0], b.distance[1]) - b.radius, 1e-6);
-    const MixtureProposal proposal = mixture_over(points, 0.1);
+    const MixtureProposal proposal = mixture_over(points, kDefensiveShare);  // as the pipeline
     const auto indicator = [&](const Eigen::VectorXd& z, long long, std::string*) { return g(z) <= 0.0 ? 1 : 0; };
-    int here = 0, single_here = 0;
-    double worst_cov = 0.0;
-    long long most_runs = 0;
-    for (int s = 0; s < n_seeds; ++s) {
-      ImportanceSamplingOptions options;
-      options.samples = kMaximumRuns;
-      options.cov_target = 0.1;
-      options.seed = 500 + static_cast<unsigned long long>(s);
-      options.threads = 2;
-      const auto r = importance_sample(proposal, indicator, options);
-      EXPECT_TRUE(r.converged) << "ball pair " << k << " seed " << s << ": CoV " << r.coefficient_of_variation;
-      EXPECT_LE(r.coefficient_of_variation, kMaximumCov);
-      worst_cov = std::max(worst_cov, r.coefficient_of_variation);
-      most_runs = std::max(most_runs, r.samples);
-      ++cases;
-      if (r.lower <= exact[k] && exact[k] <= r.upper) {
-        ++covered;
-        ++here;
-      }
-      // Side by side: one design point, the proposal the pipeline used before.
-      const auto one = importance_sample(points[0].z, indicator, options);
-      if (one.lower <= exact[k] && exact[k] <= one.upper) {
-        ++single_covered;
-        ++single_here;
-      }
-    }
+    const std::string label = "ball pair " + std::to_string(k);
+    const Sweep mixture = sweep_seeds(proposal, indicator, exact[k], n_seeds, 500, label, true);
+    // Side by side: one design point, the proposal the pipeline used before.
+    const Sweep one = sweep_seeds(MixtureProposal::around(points[0].z), indicator, exact[k], n_seeds, 500, label, false);
+    cases += n_seeds;
+    covered += mixture.covered;
+    single_covered += one.covered;
     std::printf("two balls d=%d |c|=%.2f,%.2f: exact %.4e, mixture covered %d/%d (worst CoV %.3f, most runs %lld), "
                 "one design point covered %d/%d\n",
-                b.dimension, b.distance[0], b.distance[1], exact[k], here, n_seeds, worst_cov, most_runs, single_here,
-                n_seeds);
+                b.dimension, b.distance[0], b.distance[1], exact[k], mixture.covered, n_seeds, mixture.worst_cov,
+                mixture.most_runs, one.covered, n_seeds);
   }
   const double coverage = static_cast<double>(covered) / cases;
   std::printf("mixture coverage %.3f, one design point %.3f, over %d seeded estimates\n", coverage,

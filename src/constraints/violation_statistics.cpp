@@ -32,30 +32,38 @@ long long quantile_index(double epsilon, long long n) {
   return m;
 }
 
-void push_bounded(std::vector<double>& heap, std::size_t k, double x) {
-  if (heap.size() < k) {
-    heap.push_back(x);
-    std::push_heap(heap.begin(), heap.end());
-  } else if (x < heap.front()) {
-    std::pop_heap(heap.begin(), heap.end());
-    heap.back() = x;
-    std::push_heap(heap.begin(), heap.end());
+// Cuts `kept` back to its k smallest values and sets `limit` to the largest of
+// them (+∞ while fewer than k are kept).
+void cut_to_smallest(std::vector<double>& kept, double& limit, std::size_t k) {
+  if (kept.size() > k) {
+    std::nth_element(kept.begin(), kept.begin() + static_cast<std::ptrdiff_t>(k - 1), kept.end());
+    kept.resize(k);
+    limit = kept[k - 1];
+  } else if (kept.size() == k) {
+    limit = *std::max_element(kept.begin(), kept.end());
   }
 }
 
-// The k smallest of heap ∪ parts' heaps, as a max-heap: the same multiset as
-// pushing every value with push_bounded, in any order.
+// Keeps x when it may be among the k smallest values seen: appends, and cuts the
+// buffer back to k when it reaches 2k. The kept values always contain the k
+// smallest of every value offered (ties at the limit are equal values).
+void push_bounded(std::vector<double>& kept, double& limit, std::size_t k, double x) {
+  if (!(x < limit)) return;
+  kept.push_back(x);
+  if (kept.size() >= 2 * k) cut_to_smallest(kept, limit, k);
+}
+
+// The k smallest of kept ∪ parts' kept values: the same multiset as pushing
+// every value with push_bounded, in any order.
 template <class Get>
-void merge_bounded(std::vector<double>& heap, std::size_t k, std::size_t parts, const Get& get) {
-  std::size_t total = heap.size();
+void merge_bounded(std::vector<double>& kept, double& limit, std::size_t k, std::size_t parts, const Get& get) {
+  std::size_t total = kept.size();
   for (std::size_t q = 0; q < parts; ++q) total += get(q).size();
-  heap.reserve(total);
-  for (std::size_t q = 0; q < parts; ++q) heap.insert(heap.end(), get(q).begin(), get(q).end());
-  if (heap.size() > k) {
-    std::nth_element(heap.begin(), heap.begin() + static_cast<std::ptrdiff_t>(k - 1), heap.end());
-    heap.resize(k);
-  }
-  std::make_heap(heap.begin(), heap.end());
+  kept.reserve(total);
+  for (std::size_t q = 0; q < parts; ++q)
+    for (double x : get(q))
+      if (x < limit) kept.push_back(x);
+  cut_to_smallest(kept, limit, k);
 }
 
 double order_statistic(std::vector<double> heap, long long m) {
@@ -99,6 +107,7 @@ ViolationStatistics::ViolationStatistics(const std::vector<Constraint>& constrai
     p.mean.assign(T, 0.0);
     p.m2.assign(T, 0.0);
     p.smallest.assign(T, {});
+    p.limit.assign(T, std::numeric_limits<double>::infinity());
     p.k = static_cast<std::size_t>(quantile_index(constraint.max_probability(), std::max<long long>(max_samples, 1)) + 1);
   }
 }
@@ -148,7 +157,7 @@ void ViolationStatistics::add(const Eigen::Ref<const Eigen::MatrixXd>& Y, const 
           throw NumericalError(msg.str(), first_sample < 0 ? -1 : first_sample + i, times_[t]);
         }
         sum += x;
-        push_bounded(p.smallest[ts], p.k, x);
+        push_bounded(p.smallest[ts], p.limit[ts], p.k, x);
         if (window) {
           if (x < 0.0) ++p.violations[ts];
           path_min[i] = std::min(path_min[i], x);
@@ -168,7 +177,7 @@ void ViolationStatistics::add(const Eigen::Ref<const Eigen::MatrixXd>& Y, const 
     for (Eigen::Index i = 0; i < rows; ++i) {
       if (!keep[static_cast<std::size_t>(i)]) continue;
       path_sum += path_min[i];
-      push_bounded(p.smallest_path, p.k, path_min[i]);
+      push_bounded(p.smallest_path, p.path_limit, p.k, path_min[i]);
       if (path_min[i] < 0.0) {
         ++p.path_violations;
         joint[static_cast<std::size_t>(i)] = 1;
@@ -192,9 +201,9 @@ void ViolationStatistics::merge(const ViolationStatistics& later) {
     for (std::size_t t = 0; t < a.violations.size(); ++t) {
       a.violations[t] += b.violations[t];
       merge_moments(n_, a.mean[t], a.m2[t], later.n_, b.mean[t], b.m2[t]);
-      for (double x : b.smallest[t]) push_bounded(a.smallest[t], a.k, x);
+      for (double x : b.smallest[t]) push_bounded(a.smallest[t], a.limit[t], a.k, x);
     }
-    for (double x : b.smallest_path) push_bounded(a.smallest_path, a.k, x);
+    for (double x : b.smallest_path) push_bounded(a.smallest_path, a.path_limit, a.k, x);
     a.path_violations += b.path_violations;
     double unused_m2 = 0.0;
     merge_moments(n_, a.path_mean, unused_m2, later.n_, b.path_mean, 0.0);
@@ -224,7 +233,7 @@ void ViolationStatistics::merge_all(const std::vector<ViolationStatistics>& late
         merge_moments(n, a.mean[t], a.m2[t], part.n_, b.mean[t], b.m2[t]);
         n += part.n_;
       }
-      merge_bounded(a.smallest[t], a.k, later.size(), [&](std::size_t q) -> const std::vector<double>& { return later[q].per_[j].smallest[t]; });
+      merge_bounded(a.smallest[t], a.limit[t], a.k, later.size(), [&](std::size_t q) -> const std::vector<double>& { return later[q].per_[j].smallest[t]; });
     } else {
       for (const auto& part : later) {
         const PerConstraint& b = part.per_[j];
@@ -233,7 +242,7 @@ void ViolationStatistics::merge_all(const std::vector<ViolationStatistics>& late
         merge_moments(n, a.path_mean, unused_m2, part.n_, b.path_mean, 0.0);
         n += part.n_;
       }
-      merge_bounded(a.smallest_path, a.k, later.size(), [&](std::size_t q) -> const std::vector<double>& { return later[q].per_[j].smallest_path; });
+      merge_bounded(a.smallest_path, a.path_limit, a.k, later.size(), [&](std::size_t q) -> const std::vector<double>& { return later[q].per_[j].smallest_path; });
     }
   });
   for (const auto& b : later) joint_violations_ += b.joint_violations_;

@@ -110,9 +110,10 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
     const long long wave_begin = wave * chunk, wave_end = std::min(runs, (wave + in_wave) * chunk);
     Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> wave_outputs;
     std::vector<std::uint8_t> wave_ok;
+    Eigen::MatrixXd wave_xi;
     if (run_options.run_rows) {
       const Eigen::Index wave_rows = wave_end - wave_begin;
-      Eigen::MatrixXd wave_xi(wave_rows, d);
+      wave_xi.resize(wave_rows, d);
       parallel_for_chunks(static_cast<std::size_t>(wave_rows), static_cast<std::size_t>(chunk), run_options.threads,
                           [&](std::size_t b, std::size_t e) {
                             std::vector<double> point(static_cast<std::size_t>(d));
@@ -133,30 +134,39 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
       const long long begin = (wave + static_cast<long long>(w)) * chunk;
       const long long end = std::min(runs, begin + chunk);
       const Eigen::Index rows = end - begin;
-      Eigen::MatrixXd Y = Eigen::MatrixXd::Zero(rows, columns);
+      // Every row of Y is written below: a run's outputs, or NaN for a failed run
+      // (never read: the statistics take only the rows marked in `keep`).
+      Eigen::MatrixXd Y(rows, columns);
       Eigen::MatrixXd xi(rows, d);
       std::vector<std::uint8_t> keep(static_cast<std::size_t>(rows), 0), saturated_row(static_cast<std::size_t>(rows), 0);
       std::vector<double> point(static_cast<std::size_t>(d)), outputs(static_cast<std::size_t>(columns));
       for (Eigen::Index r = 0; r < rows; ++r) {
         const long long sample = begin + r;
-        germ_point(families, options.seed, sample, point.data());
-        for (int j = 0; j < d; ++j) xi(r, j) = point[static_cast<std::size_t>(j)];
-        std::fill(outputs.begin(), outputs.end(), kNaN);
-        std::string error;
         bool ran = false;
+        std::string error;
         if (run_options.run_rows) {
+          // The wave already drew this run's germ point and ran it.
           const Eigen::Index at = sample - wave_begin;
+          xi.row(r) = wave_xi.row(at);
           ran = wave_ok[static_cast<std::size_t>(at)] != 0;
           if (ran) {
-            for (Eigen::Index c = 0; c < columns; ++c) outputs[static_cast<std::size_t>(c)] = wave_outputs(at, c);
+            Y.row(r) = wave_outputs.row(at);
           } else {
             // Same run again, only for its message (failures are rare and deterministic).
+            for (int j = 0; j < d; ++j) point[static_cast<std::size_t>(j)] = xi(r, j);
+            std::fill(outputs.begin(), outputs.end(), kNaN);
             (void)run_sample(point.data(), sample, outputs.data(), &error);
           }
         } else {
+          germ_point(families, options.seed, sample, point.data());
+          for (int j = 0; j < d; ++j) xi(r, j) = point[static_cast<std::size_t>(j)];
+          std::fill(outputs.begin(), outputs.end(), kNaN);
           ran = run_sample(point.data(), sample, outputs.data(), &error);
+          if (ran)
+            for (Eigen::Index c = 0; c < columns; ++c) Y(r, c) = outputs[static_cast<std::size_t>(c)];
         }
         if (!ran) {
+          Y.row(r).setConstant(kNaN);
           ++p.failed;
           if (static_cast<int>(p.failures.size()) < run_options.reported_failures) {
             p.failures.emplace_back(sample, error.empty() ? "run failed (no message)" : error);
@@ -165,7 +175,6 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
         }
         keep[static_cast<std::size_t>(r)] = 1;
         ++p.successful;
-        for (Eigen::Index c = 0; c < columns; ++c) Y(r, c) = outputs[static_cast<std::size_t>(c)];
         if (sample < kept) result.kept_outputs.row(sample) = Y.row(r);  // each run owns its row
         bool saturated = false;
         for (const auto& s : run_options.saturation) {

@@ -18,8 +18,10 @@
 //                          margin and the probability).
 //   path margin            the same order statistic of the per-sample path minimum.
 //
-// Quantiles are exact: each accumulator keeps the k = ⌊ε·N_max⌋ + 1 smallest values
-// per time in a bounded max-heap (memory O(k·T)), where N_max is an upper bound on
+// Quantiles are exact: each accumulator keeps (at least) the k = ⌊ε·N_max⌋ + 1
+// smallest values per time, in an unordered buffer of at most 2k values that is cut
+// back to its k smallest by one selection when full (amortized O(1) per value,
+// memory O(k·T)); values not below the buffer's k-th smallest are never kept. N_max is an upper bound on
 // the total number of samples given at construction (Monte Carlo may lose failed
 // runs, so the final N may be smaller; ⌊εN⌋ < k still holds).
 //
@@ -31,6 +33,7 @@
 // for any thread count. stream_violation_statistics() does exactly that.
 #include <cstdint>
 #include <functional>
+#include <limits>
 #include <vector>
 
 #include <Eigen/Core>
@@ -113,8 +116,10 @@ class ViolationStatistics {
   struct PerConstraint {
     std::vector<long long> violations;                  // [T]
     std::vector<double> mean, m2;                       // [T], per-accumulator running moments
-    std::vector<std::vector<double>> smallest;          // [T] max-heaps of size ≤ k
-    std::vector<double> smallest_path;                  // max-heap of path minima
+    std::vector<std::vector<double>> smallest;          // [T] kept values (≤ 2k, unordered)
+    std::vector<double> limit;                          // [T] keep only values below this (k-th smallest once cut)
+    std::vector<double> smallest_path;                  // kept path minima (≤ 2k, unordered)
+    double path_limit = std::numeric_limits<double>::infinity();
     long long path_violations = 0;
     double path_mean = 0.0;
     std::size_t k = 1;

@@ -78,22 +78,6 @@ app::AnalysisOptions analysis_options(const Common& common) {
   return options;
 }
 
-// The nominal outputs as CSV (simulate --csv).
-std::string nominal_csv(const result::AnalysisResult& nominal) {
-  std::ostringstream csv;
-  csv << "t";
-  for (const auto& name : nominal.output_names) csv << ',' << name;
-  csv << '\n';
-  csv.precision(17);
-  for (std::size_t k = 0; k < nominal.time.size(); ++k) {
-    csv << nominal.time[k];
-    for (Eigen::Index j = 0; j < nominal.nominal_outputs.cols(); ++j)
-      csv << ',' << nominal.nominal_outputs(static_cast<Eigen::Index>(k), j);
-    csv << '\n';
-  }
-  return csv.str();
-}
-
 // Notes stale temporaries (of processes no longer running) beside `path` on stderr.
 void note_stale_temporaries(const std::string& path) {
   const std::filesystem::path p(path);
@@ -218,7 +202,7 @@ int main(int argc, char** argv) {
       outputs.check();
       const result::AnalysisResult nominal = app::simulate_case(loaded);
       outputs.stage(output, [&](const std::string& temporary) { result::write_result_to(nominal, temporary); });
-      if (!csv_path.empty()) outputs.stage_text(csv_path, nominal_csv(nominal));
+      if (!csv_path.empty()) outputs.stage_text(csv_path, result::nominal_csv(nominal));
       if (!common.json.empty()) outputs.stage_text(common.json, result::json_summary(nominal));
       outputs.commit();
       say(common, result::summary_text(nominal));

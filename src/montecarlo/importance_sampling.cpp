@@ -99,6 +99,72 @@ MostProbablePoint find_most_probable_point(const LimitState& g, int dimension, c
 }
 
 namespace {
+// log Φ(−β); past the double range of Φ(−β) (β ≳ 37) the leading term of the Mills-ratio
+// expansion, log φ(β) − log β (Abramowitz & Stegun 26.2.12).
+double log_tail(double beta) {
+  const boost::math::normal_distribution<double> normal(0.0, 1.0);
+  const double p = boost::math::cdf(boost::math::complement(normal, beta));
+  if (p > 0.0) return std::log(p);
+  return -0.5 * beta * beta - std::log(beta * std::sqrt(2.0 * M_PI));
+}
+}  // namespace
+
+std::vector<MostProbablePoint> find_design_points(const LimitState& g, const Eigen::MatrixXd& screen,
+                                                  const Eigen::VectorXd& g_screen, const DesignPointSearchOptions& options) {
+  if (screen.rows() != g_screen.size() || screen.cols() == 0 || options.max_points < 1)
+    throw std::logic_error("find_design_points: bad screen or options");
+  const int d = static_cast<int>(screen.cols());
+  std::vector<Eigen::Index> violating;
+  for (Eigen::Index i = 0; i < screen.rows(); ++i)
+    if (g_screen[i] < 0.0) violating.push_back(i);
+  // Stable order by ‖z‖ (ties by row), so the starts do not depend on the sort implementation.
+  std::stable_sort(violating.begin(), violating.end(), [&](Eigen::Index a, Eigen::Index b) {
+    return screen.row(a).squaredNorm() < screen.row(b).squaredNorm();
+  });
+  std::vector<Eigen::VectorXd> starts;
+  for (const Eigen::Index i : violating) {
+    if (static_cast<int>(starts.size()) >= options.max_points) break;
+    const Eigen::VectorXd z = screen.row(i).transpose();
+    const double norm = z.norm();
+    bool separate = norm > 0.0;
+    for (const auto& s : starts) separate = separate && s.dot(z) < options.separation_cosine * s.norm() * norm;
+    if (separate) starts.push_back(z);
+  }
+  std::vector<MostProbablePoint> found;
+  if (starts.empty()) found.push_back(find_most_probable_point(g, d, std::nullopt, options.hlrf));
+  for (const auto& s : starts) found.push_back(find_most_probable_point(g, d, s, options.hlrf));
+  std::stable_sort(found.begin(), found.end(),
+                   [](const MostProbablePoint& a, const MostProbablePoint& b) { return a.beta < b.beta; });
+  const double most = log_tail(found.front().beta);
+  std::vector<MostProbablePoint> kept;
+  for (auto& p : found) {
+    bool duplicate = false;
+    for (const auto& k : kept) duplicate = duplicate || (p.z - k.z).norm() <= options.duplicate_distance * std::max(1.0, k.beta);
+    if (duplicate || log_tail(p.beta) < std::log(options.relevance) + most) continue;
+    kept.push_back(std::move(p));
+  }
+  return kept;
+}
+
+MixtureProposal mixture_over(const std::vector<MostProbablePoint>& design_points, double defensive) {
+  if (design_points.empty() || !(defensive >= 0.0 && defensive < 1.0))
+    throw std::logic_error("mixture_over: no design point or a defensive share outside [0, 1)");
+  MixtureProposal q;
+  q.defensive = defensive;
+  // Shares relative to the most probable point, so that far in the tail they cannot all underflow.
+  double top = -std::numeric_limits<double>::infinity();
+  for (const auto& p : design_points) top = std::max(top, log_tail(p.beta));
+  double total = 0.0;
+  for (const auto& p : design_points) {
+    q.centres.push_back(p.z);
+    q.shares.push_back(std::exp(log_tail(p.beta) - top));
+    total += q.shares.back();
+  }
+  for (auto& a : q.shares) a *= (1.0 - defensive) / total;
+  return q;
+}
+
+namespace {
 ImportanceSamplingResult finish(const Partial& total, long long n_samples, const Eigen::VectorXd& z_star,
                                 const ImportanceSamplingOptions& options) {
   ImportanceSamplingResult r;
@@ -131,16 +197,56 @@ ImportanceSamplingResult finish(const Partial& total, long long n_samples, const
 }
 }  // namespace
 
+namespace {
+void check_proposal(const MixtureProposal& q) {
+  // Shares are set by code, never read from a file: a rounding slack of 1e-9 (common practice).
+  constexpr double kShareSlack = 1e-9;
+  if (q.centres.empty() || q.centres.size() != q.shares.size() || q.centres[0].size() == 0 || !(q.defensive >= 0.0))
+    throw std::logic_error("importance_sample: empty or inconsistent mixture proposal");
+  double total = q.defensive;
+  for (std::size_t k = 0; k < q.centres.size(); ++k) {
+    if (q.centres[k].size() != q.centres[0].size() || !(q.shares[k] >= 0.0) || !q.centres[k].allFinite())
+      throw std::logic_error("importance_sample: bad mixture component");
+    total += q.shares[k];
+  }
+  if (std::abs(total - 1.0) > kShareSlack) throw std::logic_error("importance_sample: mixture shares do not sum to 1");
+}
+}  // namespace
+
 ImportanceSamplingResult importance_sample(const Eigen::VectorXd& z_star, const ViolationIndicator& violated,
                                            const ImportanceSamplingOptions& options) {
-  if (options.samples < 0 || options.chunk_size <= 0 || !violated || z_star.size() == 0 || options.batch_size <= 0 ||
+  return importance_sample(MixtureProposal::around(z_star), violated, options);
+}
+
+ImportanceSamplingResult importance_sample(const MixtureProposal& proposal, const ViolationIndicator& violated,
+                                           const ImportanceSamplingOptions& options) {
+  if (options.samples < 0 || options.chunk_size <= 0 || !violated || options.batch_size <= 0 ||
       options.cov_target < 0.0) {
     throw std::logic_error("importance_sample: bad options");
   }
+  check_proposal(proposal);
   const long long n_max = options.samples;
   const long long chunk = options.chunk_size;
-  const Eigen::Index d = z_star.size();
-  const double half_beta2 = 0.5 * z_star.squaredNorm();
+  const Eigen::Index d = proposal.centres[0].size();
+  const std::size_t n_centres = proposal.centres.size();
+  // log α_k − ‖c_k‖²/2 per centre; a zero share leaves the component out of q.
+  std::vector<double> log_offset(n_centres);
+  for (std::size_t k = 0; k < n_centres; ++k)
+    log_offset[k] = std::log(proposal.shares[k]) - 0.5 * proposal.centres[k].squaredNorm();
+  const double log_defensive = std::log(proposal.defensive);  // −∞ without a defensive share
+  const bool single = n_centres == 1 && !(proposal.defensive > 0.0);
+  // w = φ(z)/q(z) = 1/Σ exp(l_k), l_0 = log α₀, l_k = log α_k + c_k·z − ‖c_k‖²/2 (log-sum-exp).
+  const auto weight_at = [&](const Eigen::VectorXd& z) {
+    double top = log_defensive;
+    std::vector<double> l(n_centres);
+    for (std::size_t k = 0; k < n_centres; ++k) {
+      l[k] = log_offset[k] + proposal.centres[k].dot(z);
+      top = std::max(top, l[k]);
+    }
+    double sum = std::exp(log_defensive - top);
+    for (std::size_t k = 0; k < n_centres; ++k) sum += std::exp(l[k] - top);
+    return std::exp(-top) / sum;
+  };
   const CounterRng rng(options.seed + options.stream);
   Partial total;
   long long done = 0;
@@ -155,12 +261,23 @@ ImportanceSamplingResult importance_sample(const Eigen::VectorXd& z_star, const 
         Partial& p = partial[w];
         const long long begin = done + (wave + static_cast<long long>(w)) * chunk;
         const long long end = std::min(batch_end, begin + chunk);
-        Eigen::VectorXd u(d);
+        Eigen::VectorXd z(d);
         for (long long i = begin; i < end; ++i) {
-          for (Eigen::Index j = 0; j < d; ++j) u[j] = rng.normal(static_cast<std::uint64_t>(i), static_cast<std::uint64_t>(j));
-          const Eigen::VectorXd z = z_star + u;
-          // w = φ(z)/φ(z − z*) = exp(−z*·z + ‖z*‖²/2) = exp(−z*·u − ‖z*‖²/2).
-          const double weight = std::exp(-z_star.dot(u) - half_beta2);
+          const auto sample = static_cast<std::uint64_t>(i);
+          // Component: 0 = defensive N(0, I), else centre k − 1 (cumulative shares).
+          std::size_t component = 1;
+          if (!single) {
+            const double pick = rng.uniform(sample, static_cast<std::uint64_t>(d));
+            double cumulative = proposal.defensive;
+            component = pick < cumulative ? 0 : n_centres;
+            for (std::size_t k = 0; component == n_centres && k + 1 < n_centres; ++k) {
+              cumulative += proposal.shares[k];
+              if (pick < cumulative) component = k + 1;
+            }
+          }
+          for (Eigen::Index j = 0; j < d; ++j) z[j] = rng.normal(sample, static_cast<std::uint64_t>(j));
+          if (component > 0) z += proposal.centres[component - 1];
+          const double weight = weight_at(z);
           std::string error;
           const int outcome = violated(z, i, &error);
           if (outcome < 0) {
@@ -192,12 +309,12 @@ ImportanceSamplingResult importance_sample(const Eigen::VectorXd& z_star, const 
       }
     }
     done = batch_end;
-    if (options.cov_target > 0.0 && finish(total, done, z_star, options).converged) break;
+    if (options.cov_target > 0.0 && finish(total, done, proposal.centres[0], options).converged) break;
   }
-  return finish(total, done, z_star, options);
+  return finish(total, done, proposal.centres[0], options);
 }
 
-ImportanceSamplingResult importance_sample_constraint(const Eigen::VectorXd& z_star, const constraints::Constraint& constraint,
+ImportanceSamplingResult importance_sample_constraint(const MixtureProposal& proposal, const constraints::Constraint& constraint,
                                                       const Eigen::VectorXd& times, int n_outputs,
                                                       const RunStandardNormalSample& run,
                                                       const ImportanceSamplingOptions& options) {
@@ -207,7 +324,7 @@ ImportanceSamplingResult importance_sample_constraint(const Eigen::VectorXd& z_s
   if (!any) throw InputError(constraint.where(), "constraint '" + constraint.name() + "': its window contains no report time");
   const Eigen::Index columns = times.size() * n_outputs;
   return importance_sample(
-      z_star,
+      proposal,
       [&](const Eigen::VectorXd& z, long long sample, std::string* error) -> int {
         std::vector<double> outputs(static_cast<std::size_t>(columns), std::nan(""));
         if (!run(z.data(), sample, outputs.data(), error)) return -1;

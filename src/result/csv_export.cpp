@@ -7,6 +7,7 @@
 
 #include "sigmatube/core/error.h"
 #include "sigmatube/core/output_policy.h"
+#include "sigmatube/result/number_format.h"
 #include "sigmatube/result/result_file.h"
 
 namespace sigmatube::result {
@@ -14,14 +15,7 @@ namespace {
 
 namespace fs = std::filesystem;
 
-std::string number(double v) {
-  if (std::isnan(v)) return "nan";
-  if (std::isinf(v)) return v > 0 ? "inf" : "-inf";
-  std::ostringstream s;
-  s.precision(17);
-  s << v;
-  return s.str();
-}
+std::string number(double v) { return format_shortest(v); }
 
 // "name [unit]" ("name" when the unit is unknown). Commas and quotes in names
 // are quoted as RFC 4180 says.
@@ -39,9 +33,10 @@ std::string unit_of(const AnalysisResult& r, std::size_t output) {
 
 // One CSV table: t then `columns` values per report time (value(k, column)).
 template <class Value>
-std::string table(const AnalysisResult& r, const std::vector<std::string>& header, Value value) {
+std::string table(const AnalysisResult& r, const std::vector<std::string>& header, Value value,
+                  const char* time_header = "t [s]") {
   std::ostringstream out;
-  out << "t [s]";
+  out << time_header;
   for (const auto& h : header) out << ',' << h;
   out << '\n';
   for (std::size_t k = 0; k < r.time.size(); ++k) {
@@ -59,6 +54,12 @@ std::string level_text(double level) {
 }
 
 }  // namespace
+
+std::string nominal_csv(const AnalysisResult& nominal) {
+  return table(
+      nominal, nominal.output_names,
+      [&](Eigen::Index k, std::size_t c) { return nominal.nominal_outputs(k, static_cast<Eigen::Index>(c)); }, "t");
+}
 
 std::vector<std::pair<std::string, std::string>> csv_export(const AnalysisResult& r) {
   std::vector<std::pair<std::string, std::string>> files;

@@ -29,6 +29,12 @@ std::string strings(const std::vector<std::string>& v) {
 
 std::string boolean(bool b) { return b ? "true" : "false"; }
 
+std::string numbers(const std::vector<double>& v) {
+  std::string out = "[";
+  for (std::size_t k = 0; k < v.size(); ++k) out += (k ? ", " : "") + json_number(v[k]);
+  return out + "]";
+}
+
 }  // namespace
 
 std::string json_summary(const AnalysisResult& r) {
@@ -123,6 +129,8 @@ std::string json_summary(const AnalysisResult& r) {
         << ", \"standard_error\": " << json_number(is.standard_error) << ", \"interval\": " << pair(is.interval)
         << ", \"effective_sample_size\": " << json_number(is.effective_sample_size)
         << ", \"design_point_distance\": " << json_number(is.design_point_distance)
+        << ", \"design_point_distances\": " << numbers(is.design_point_distances)
+        << ", \"defensive_share\": " << json_number(is.defensive_share)
         << ", \"coefficient_of_variation\": " << json_number(is.coefficient_of_variation)
         << ", \"converged\": " << boolean(is.converged) << "},\n";
     else

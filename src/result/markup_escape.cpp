@@ -1,10 +1,10 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/result/markup_escape.h"
 
-#include <charconv>
-
 #include <cmath>
 #include <cstdio>
+
+#include "sigmatube/result/number_format.h"
 
 namespace sigmatube::result {
 
@@ -79,10 +79,7 @@ std::string json_string(const std::string& text) {
 
 std::string json_number(double v) {
   if (!std::isfinite(v)) return "null";
-  // Shortest digits that read back to the same double (0.95, not 0.94999999999999996).
-  char buffer[64];
-  const auto end = std::to_chars(buffer, buffer + sizeof buffer, v).ptr;
-  return std::string(buffer, end);
+  return format_shortest(v);  // 0.95, not 0.94999999999999996
 }
 
 }  // namespace sigmatube::result

@@ -1,6 +1,7 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/result/number_format.h"
 
+#include <charconv>
 #include <cmath>
 #include <cstdio>
 
@@ -13,6 +14,14 @@ std::string format_probability(double p, int digits) {
   char buffer[64];
   std::snprintf(buffer, sizeof buffer, "%.*e", digits > 1 ? digits - 1 : 0, p);
   return buffer;
+}
+
+std::string format_shortest(double v) {
+  if (std::isnan(v)) return "nan";
+  if (std::isinf(v)) return v > 0 ? "inf" : "-inf";
+  char buffer[64];
+  const auto end = std::to_chars(buffer, buffer + sizeof buffer, v).ptr;
+  return std::string(buffer, end);
 }
 
 std::string format_value(double v, int digits) {

@@ -351,6 +351,8 @@ void write_constraint(H5::Group& parent, const ConstraintResult& c) {
     write_vector(gi, "interval", std::vector<double>{is.interval[0], is.interval[1]});
     write_scalar(gi, "effective_sample_size", is.effective_sample_size);
     write_scalar(gi, "design_point_distance", is.design_point_distance);
+    write_vector(gi, "design_point_distances", is.design_point_distances);
+    write_scalar(gi, "defensive_share", is.defensive_share);
     write_scalar(gi, "coefficient_of_variation", is.coefficient_of_variation);
     write_scalar(gi, "cov_target", is.cov_target);
     write_attribute(gi, "converged", static_cast<long long>(is.converged ? 1 : 0));
@@ -833,6 +835,10 @@ AnalysisResult read_all(const std::string& path) {
         read_pair(reader, gi, "interval", is.interval);
         is.effective_sample_size = reader.scalar(gi, "effective_sample_size");
         is.design_point_distance = reader.scalar(gi, "design_point_distance");
+        if (Reader::exists(gi, "design_point_distances")) {
+          is.design_point_distances = reader.doubles(gi, "design_point_distances");
+          is.defensive_share = reader.scalar(gi, "defensive_share");
+        }
         if (Reader::exists(gi, "coefficient_of_variation")) {
           is.coefficient_of_variation = reader.scalar(gi, "coefficient_of_variation");
           is.cov_target = reader.scalar(gi, "cov_target");

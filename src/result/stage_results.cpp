@@ -227,6 +227,8 @@ void add_rare_events(AnalysisResult& r, const std::vector<std::optional<montecar
     out.interval[1] = is.upper;
     out.effective_sample_size = is.effective_sample_size;
     out.design_point_distance = estimates[k]->design_point.beta;
+    for (const auto& p : estimates[k]->design_points) out.design_point_distances.push_back(p.beta);
+    out.defensive_share = estimates[k]->proposal.defensive;
     out.coefficient_of_variation = is.coefficient_of_variation;
     out.cov_target = cov_target;
     out.converged = is.converged;

@@ -321,6 +321,13 @@ std::string summary_text(const AnalysisResult& r, bool color) {
         out << "    importance sampling: " << is.runs << " runs, P " << format_probability(is.probability) << " +/- "
             << format_probability(is.standard_error, 1) << ", ESS " << format_value(is.effective_sample_size, 4)
             << ", design point distance (beta) " << format_value(is.design_point_distance, 4) << "\n";
+        if (is.design_point_distances.size() > 1 || is.defensive_share > 0.0) {
+          out << "      proposal: " << is.design_point_distances.size() << " design point"
+              << (is.design_point_distances.size() == 1 ? "" : "s") << " (beta";
+          for (std::size_t k = 0; k < is.design_point_distances.size(); ++k)
+            out << (k ? ", " : " ") << format_value(is.design_point_distances[k], 4);
+          out << "), " << format_value(100 * is.defensive_share, 3) << "% defensive draws\n";
+        }
         if (!std::isnan(is.coefficient_of_variation))
           out << "      CoV " << format_value(is.coefficient_of_variation, 3) << " (target "
               << format_value(is.cov_target, 3) << "): "

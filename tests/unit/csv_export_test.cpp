@@ -12,6 +12,7 @@
 #include <filesystem>
 #include <fstream>
 
+#include "python_reference.h"
 #include "result_fixture.h"
 #include "sigmatube/app/analysis.h"
 #include "sigmatube/app/case_loader.h"
@@ -112,4 +113,21 @@ TEST(CsvExport, HeaderCellsQuoteCommasAsRfc4180) {
   ASSERT_FALSE(files.empty());
   EXPECT_EQ(files[0].first, "nominal.csv");
   EXPECT_EQ(files[0].second, "t [s],\"a,b [m]\"\n0,0.5\n1,0.5\n");
+}
+
+TEST(NominalCsv, PrintsTheShortestDigitsThatReadBackExactly) {
+  // `simulate --csv`. Reference: Python's repr of each float (shortest round-trip
+  // digits since Python 3.1), through /usr/bin/python3 at test time, joined by commas.
+  result::AnalysisResult r;
+  r.time = {0.0, 0.1, 10.0};
+  r.output_names = {"x", "vx"};
+  r.nominal_outputs.resize(3, 2);
+  r.nominal_outputs << 0.1, 1.0 / 3.0, 0.1 + 0.2, 8e-05, -2.5e-300, 20261201.5;
+  const std::string expected =
+      "t,x,vx\n" + sigmatube::test::python_output(
+                       "for row in [(0.0, 0.1, 1/3), (0.1, 0.1 + 0.2, 8e-05), (10.0, -2.5e-300, 20261201.5)]:\n"
+                       "  print(','.join(repr(v).removesuffix('.0') for v in row))\n");
+  EXPECT_EQ(result::nominal_csv(r), expected);
+  // Exact output, no binary-float artefact such as 0.10000000000000001 (by definition above).
+  EXPECT_EQ(result::nominal_csv(r).substr(0, 32), "t,x,vx\n0,0.1,0.3333333333333333\n");
 }

@@ -51,7 +51,7 @@ ImportanceSamplingResult run_linear(const Eigen::VectorXd& z_star, int threads, 
   options.seed = 11;
   options.threads = threads;
   const auto constraint = clearance_is_g();
-  return importance_sample_constraint(z_star, constraint, kTimes, 1,
+  return importance_sample_constraint(MixtureProposal::around(z_star), constraint, kTimes, 1,
                                       [&](const double* z, long long sample, double* out, std::string* error) {
                                         if (fail_some && sample % 500 == 3) {
                                           *error = "diverged";

@@ -9,10 +9,16 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <filesystem>
 #include <string>
+#include <unistd.h>
 
 #include "sigmatube/app/analysis.h"
 #include "sigmatube/app/case_loader.h"
+#include "sigmatube/montecarlo/rare_events.h"
+#include "sigmatube/result/json_summary.h"
+#include "sigmatube/result/markup_escape.h"
+#include "sigmatube/result/result_file.h"
 
 namespace {
 
@@ -171,6 +177,22 @@ TEST(ReferencePipeline, RareEventImportanceSamplingCoversOneInAMillion) {
   EXPECT_TRUE(result.constraints.at(0).within_bound);     // 1e-6 ≤ bound 1e-5
   EXPECT_TRUE(is.converged);                              // CoV ≤ the default target 0.1
   EXPECT_LE(is.coefficient_of_variation, 0.1);
+  // A half-space has one failure region: one design point, and the defensive share;
+  // both survive the result file (HDF5) and appear in the JSON summary.
+  ASSERT_EQ(is.design_point_distances.size(), 1u);
+  EXPECT_EQ(is.design_point_distances[0], is.design_point_distance);
+  EXPECT_EQ(is.defensive_share, sigmatube::montecarlo::kDefensiveShare);
+  const std::string path = (std::filesystem::temp_directory_path() /
+                            ("sigmatube_rare_" + std::to_string(::getpid()) + ".h5")).string();
+  sigmatube::result::write_result_file(result, path, true);
+  const auto back = sigmatube::result::read_result_file(path).constraints.at(0).importance_sampling;
+  std::filesystem::remove(path);
+  EXPECT_EQ(back.design_point_distances, is.design_point_distances);
+  EXPECT_EQ(back.defensive_share, is.defensive_share);
+  const std::string json = sigmatube::result::json_summary(result);
+  EXPECT_NE(json.find("\"design_point_distances\": [" + sigmatube::result::json_number(is.design_point_distance) + "]"),
+            std::string::npos);
+  EXPECT_NE(json.find("\"defensive_share\": 0.1"), std::string::npos);
   std::printf("rare event: exact %.4e, IS %.4e [%.4e, %.4e], %lld runs, ESS %.0f, beta %.6f\n", exact, is.probability,
               is.interval[0], is.interval[1], is.runs, is.effective_sample_size, is.design_point_distance);
 }

@@ -31,6 +31,21 @@
 // for the normal approximation), or `samples` runs are spent; `converged` says which.
 // cov_target = 0 runs exactly `samples` runs.
 // Chunks of fixed size are merged in chunk order: bit-identical for any thread count.
+//
+// Mixture proposal (several design points, defensive component): a failure domain made
+// of several regions (e.g. a corridor left on either side, or at different times of a
+// window) is under-sampled by N(z*, I) around one of them, and the rare samples that hit
+// another region carry huge weights. MixtureProposal samples
+//     q(z) = α₀ φ(z) + Σ_k α_k φ(z − c_k),   α₀ + Σ_k α_k = 1,
+// the defensive mixture of T. Hesterberg ("Weighted average importance sampling and
+// defensive mixture distributions", Technometrics 37, 1995) with one normal component
+// per design point c_k. Sample i takes its component from u = CounterRng(seed +
+// stream).uniform(i, d) (cumulative shares α₀, α₁, …; c_0 = 0), z_i = c_{k_i} + u_i and
+//     w_i = φ(z_i)/q(z_i) = 1 / (α₀ + Σ_k α_k exp(c_k·z_i − ‖c_k‖²/2)),
+// the full mixture density in every weight, so the estimate is unbiased for any shares,
+// and every weight is ≤ 1/α₀ when α₀ > 0 (Owen & Zhou, "Safe and effective importance
+// sampling", J. Amer. Statist. Assoc. 95, 2000). One centre with α₀ = 0 is the N(z*, I)
+// proposal above, with the same draws.
 #include <functional>
 #include <optional>
 #include <string>
@@ -73,6 +88,41 @@ MostProbablePoint find_most_probable_point(const LimitState& g, int dimension,
                                            const std::optional<Eigen::VectorXd>& start = std::nullopt,
                                            const MostProbablePointOptions& options = {});
 
+/// q(z) = defensive·φ(z) + Σ_k shares_k φ(z − centres_k); shares and defensive ≥ 0, summing to 1.
+struct MixtureProposal {
+  std::vector<Eigen::VectorXd> centres;  // design points, most probable first
+  std::vector<double> shares;            // α_k, one per centre
+  double defensive = 0.0;                // α₀, the share of plain N(0, I) draws
+
+  /// The single-design-point proposal N(z*, I).
+  static MixtureProposal around(const Eigen::VectorXd& design_point) { return {{design_point}, {1.0}, 0.0}; }
+};
+
+/// Several design points, for a failure domain of several regions (multiple design points:
+/// A. Der Kiureghian & T. Dakessian, "Multiple design points in first and second-order
+/// reliability", Structural Safety 20, 1998; here found by multi-start HL-RF). Starts are the
+/// violating rows of `screen` (standard-normal points, g_screen their limit-state values)
+/// in order of ‖z‖, each skipped when its direction is within `separation_cosine` of an
+/// earlier start, at most max_points of them (the origin when no row violates). Each
+/// start is run to its design point; points within `duplicate_distance`·max(1, β) of a
+/// more probable one are dropped, and so are points whose first-order probability
+/// Φ(−β_k) is below relevance·Φ(−β_min). Most probable first.
+struct DesignPointSearchOptions {
+  int max_points = 4;
+  double separation_cosine = 0.8;   // cos 37°: starts closer in direction find the same region (common practice)
+  double duplicate_distance = 0.05;
+  double relevance = 1e-2;          // regions adding < 1 % of the first-order estimate are left to the defensive share
+  MostProbablePointOptions hlrf;
+};
+
+std::vector<MostProbablePoint> find_design_points(const LimitState& g, const Eigen::MatrixXd& screen,
+                                                  const Eigen::VectorXd& g_screen,
+                                                  const DesignPointSearchOptions& options = {});
+
+/// The proposal over design points: shares ∝ Φ(−β_k) (their first-order probabilities),
+/// scaled to 1 − defensive.
+MixtureProposal mixture_over(const std::vector<MostProbablePoint>& design_points, double defensive);
+
 struct ImportanceSamplingOptions {
   long long samples = 5000;
   unsigned long long seed = 20261201ULL;
@@ -100,7 +150,7 @@ struct ImportanceSamplingResult {
   double coefficient_of_variation = 0.0;
   double pessimistic_probability = 0.0;  // failed runs counted as violations
   bool converged = false;              // CoV target met (always false without a target)
-  Eigen::VectorXd design_point;
+  Eigen::VectorXd design_point;        // the proposal's first (most probable) centre
 };
 
 /// Generic estimator: violated(z, sample, &error) returns 1 (violation), 0 (safe) or
@@ -109,12 +159,17 @@ using ViolationIndicator = std::function<int(const Eigen::VectorXd& z, long long
 ImportanceSamplingResult importance_sample(const Eigen::VectorXd& design_point, const ViolationIndicator& violated,
                                            const ImportanceSamplingOptions& options = {});
 
+/// @throws std::logic_error for an empty proposal, negative shares, shares not summing to
+/// 1 or centres of different sizes.
+ImportanceSamplingResult importance_sample(const MixtureProposal& proposal, const ViolationIndicator& violated,
+                                           const ImportanceSamplingOptions& options = {});
+
 /// The full model at a standard-normal point z: fill outputs[t·n_out + o]; false on failure.
 using RunStandardNormalSample = std::function<bool(const double* z, long long sample, double* outputs, std::string* error)>;
 
 /// Importance sampling of one constraint's path violation (any report time in its
 /// window with clearance < 0) with the full model.
-ImportanceSamplingResult importance_sample_constraint(const Eigen::VectorXd& design_point,
+ImportanceSamplingResult importance_sample_constraint(const MixtureProposal& proposal,
                                                       const constraints::Constraint& constraint,
                                                       const Eigen::VectorXd& times_in_seconds, int n_outputs,
                                                       const RunStandardNormalSample& run,

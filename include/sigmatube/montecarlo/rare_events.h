@@ -2,10 +2,11 @@
 #pragma once
 #include <cstdint>
 // The rare-event stage of an analysis: a crude Monte Carlo of a few thousand
-// runs cannot resolve a bound ≤ 1e-4, so for such a constraint the design point
-// is found on the surrogate (find_most_probable_point, started from the closest
-// violating one of a screening sample) and the full model is importance-sampled
-// around it (importance_sample_constraint).
+// runs cannot resolve a bound ≤ 1e-4, so for such a constraint the design points
+// are found on the surrogate (find_design_points, multi-start HL-RF from the closest
+// well-separated violating points of screening samples, nominal then wider until 50
+// violate) and the full model is importance-sampled from the defensive mixture over
+// them (mixture_over with α₀ = kDefensiveShare; importance_sample_constraint).
 #include <optional>
 #include <vector>
 
@@ -20,6 +21,11 @@
 // Layer montecarlo/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::montecarlo {
 
+// Share of plain N(0, I) draws in the proposal: bounds every weight by 1/α₀ = 10 whatever
+// region the design points miss, at ≤ 10 % of the runs (Hesterberg 1995 suggests
+// α₀ of 0.1 to 0.5; the low end here because p is small and nominal draws rarely violate).
+inline constexpr double kDefensiveShare = 0.1;
+
 struct RareEventOptions {
   double threshold = 1e-4;   // constraints with max_probability ≤ threshold get an estimate
   long long samples = 5000;  // most full-model importance-sampling runs per constraint
@@ -33,7 +39,9 @@ struct RareEventOptions {
 };
 
 struct RareEventEstimate {
-  MostProbablePoint design_point;  // on the surrogate, in standard-normal germ space
+  MostProbablePoint design_point;  // the most probable of design_points
+  std::vector<MostProbablePoint> design_points;  // on the surrogate, in standard-normal germ space
+  MixtureProposal proposal;        // the importance-sampling density over them
   ImportanceSamplingResult sampling;
 };
 

@@ -47,6 +47,8 @@ struct ImportanceSamplingResult {
   double interval[2] = {kNaN, kNaN};
   double effective_sample_size = kNaN;  // Kish, over the violating runs' weights
   double design_point_distance = kNaN;  // ‖z*‖ in standard-normal germ space (reliability index β)
+  std::vector<double> design_point_distances;  // β of every design point of the mixture proposal, smallest first
+  double defensive_share = kNaN;        // share α₀ of plain N(0, I) draws in the proposal
   double coefficient_of_variation = kNaN;
   double cov_target = kNaN;
   bool converged = false;               // CoV target met: only then does it count for the verdict

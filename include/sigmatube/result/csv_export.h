@@ -2,8 +2,9 @@
 #pragma once
 // `sigmatube export RESULT.h5 -d DIR`: time series of a result as CSV files, one
 // header row whose cells name the column and its unit in brackets ("x [m]"), one
-// row per report time, comma-separated, numbers with 17 significant digits, NaN
-// written as "nan" (docs/result-file.md, "CSV export"). The files:
+// row per report time, comma-separated, numbers with the shortest digits that read
+// back to the same double (format_shortest), NaN written as "nan"
+// (docs/result-file.md, "CSV export"). The files:
 //   nominal.csv        t, every output of the nominal run
 //   mean.csv, std.csv  t, every output: surrogate mean and standard deviation
 //   quantiles.csv      t, every output at every quantile level ("x q0.5 [m]")
@@ -21,6 +22,10 @@ namespace sigmatube::result {
 
 /// (file name, contents) of every CSV file the result gives, in the order above.
 std::vector<std::pair<std::string, std::string>> csv_export(const AnalysisResult& result);
+
+/// `simulate --csv`: header "t,<output names>" (no units), then per report time the
+/// time and the nominal outputs, numbers as in csv_export (docs/commands.md).
+std::string nominal_csv(const AnalysisResult& nominal);
 
 /// Writes csv_export(result) into `directory` (created if missing). Every path is
 /// checked before the first file is written: an existing file is an InputError

@@ -16,7 +16,7 @@ std::string xml_escape(const std::string& text);
 std::string json_string(const std::string& text);
 
 /// A JSON number; NaN and ±inf, which JSON cannot represent, become null.
-/// 17 significant digits, so a double reads back exactly.
+/// The shortest digits that read back to the same double (format_shortest).
 std::string json_number(double v);
 
 }  // namespace sigmatube::result

@@ -18,6 +18,11 @@ std::string format_probability(double p, int digits = 2);
 /// zeros); ±inf prints "inf"/"-inf"; NaN prints kMissingValue.
 std::string format_value(double v, int digits = 4);
 
+/// The shortest digits that read back to the same double (std::to_chars, e.g. 0.1
+/// not 0.10000000000000001, 1e-05, 20261201); NaN prints "nan", ±inf "inf"/"-inf".
+/// For files a program reads back (CSV, and JSON through json_number).
+std::string format_shortest(double v);
+
 /// A value with a fixed number of decimals; NaN prints kMissingValue.
 std::string format_fixed(double v, int decimals);
 

@@ -6,6 +6,7 @@
 #include <sstream>
 
 #include "sigmatube/core/error.h"
+#include "sigmatube/core/option_values.h"
 #include "sigmatube/expansion/surrogate.h"
 #include "sigmatube/model/plan.h"
 
@@ -23,12 +24,7 @@ constexpr double kSurrogateChunk = 2048;
 constexpr double kBytesPerValue = 8;
 constexpr double kGiB = 1024.0 * 1024.0 * 1024.0;
 
-std::string rounded(double value) {
-  std::ostringstream out;
-  out.precision(3);
-  out << value;
-  return out.str();
-}
+std::string rounded(double value) { return significant_digits(value, 3); }
 
 std::string duration(double seconds) {
   if (seconds < 1) return "< 1 s";

@@ -11,14 +11,16 @@
 namespace sigmatube {
 namespace {
 
-std::string short_number(double value) {
+std::string short_number(double value) { return significant_digits(value, 6); }
+
+}  // namespace
+
+std::string significant_digits(double value, int digits) {
   std::ostringstream out;
-  out.precision(6);
+  out.precision(digits);
   out << value;
   return out.str();
 }
-
-}  // namespace
 
 std::string quote_for_message(const std::string& text, std::size_t limit) {
   std::string shown;

@@ -9,6 +9,7 @@
 
 #include "sigmatube/casefile/nearest_name.h"
 #include "sigmatube/core/error.h"
+#include "sigmatube/core/option_values.h"
 #include "sigmatube/model/controller.h"
 #include "sigmatube/model/integrator.h"
 #include "sigmatube/model/plan.h"
@@ -16,12 +17,7 @@
 namespace sigmatube::model {
 namespace {
 
-std::string rounded(double value) {
-  std::ostringstream out;
-  out.precision(3);
-  out << value;
-  return out.str();
-}
+std::string rounded(double value) { return significant_digits(value, 3); }
 
 // Report times and integration steps of one run against [limits], before the
 // controller's Riccati sweep or any run (both scale with them).

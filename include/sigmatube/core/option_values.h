@@ -19,4 +19,8 @@ double parse_real_option(const std::string& text, const std::string& option, dou
 /// that quote what a user typed.
 std::string quote_for_message(const std::string& text, std::size_t limit = 40);
 
+/// `value` with at most `digits` significant digits, as an ostream prints it
+/// with that precision (1e+03, 0.0123, 42), for messages and estimates.
+std::string significant_digits(double value, int digits);
+
 }  // namespace sigmatube

@@ -14,6 +14,7 @@
 #include "sigmatube/app/case_loader.h"
 #include "sigmatube/casefile/suite_reader.h"
 #include "sigmatube/app/work_estimate.h"
+#include "sigmatube/core/distributed.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/core/output_policy.h"
 #include "sigmatube/result/junit.h"
@@ -99,9 +100,13 @@ CaseOutcome run_one(const casefile::SuiteOptions& suite, std::size_t index, cons
     outputs.output(out.result_path, "-d");
     outputs.check();
     out.analysis = analyze_case(loaded, analysis);
-    outputs.stage(out.result_path,
-                  [&](const std::string& temporary) { result::write_result_to(out.analysis, temporary); });
-    outputs.commit();
+    // Under MPI every rank takes part in every case (its runs and samples are
+    // shared out); rank 0 alone writes.
+    if (process_rank() == 0) {
+      outputs.stage(out.result_path,
+                    [&](const std::string& temporary) { result::write_result_to(out.analysis, temporary); });
+      outputs.commit();
+    }
     out.ran = true;
     out.exit_code = out.analysis.verdict_exit_code();
   } catch (const InputError& e) {
@@ -248,7 +253,7 @@ int run_batch(const std::string& suite_path, const BatchOptions& options) {
                 << suite.cases[i].file << ")\n"
                 << std::flush;
     CaseOutcome outcome = run_one(suite, i, options);
-    if (!outcome.ran)
+    if (!outcome.ran && process_rank() == 0)
       std::cerr << "sigmatube: case " << outcome.name << ": " << outcome.error_kind << ": " << outcome.error_message
                 << '\n';
     else if (!options.quiet)
@@ -260,6 +265,7 @@ int run_batch(const std::string& suite_path, const BatchOptions& options) {
   }
 
   if (!options.quiet) std::cout << summary_table(suite, outcomes, total) << std::flush;
+  if (process_rank() != 0) return total;
   if (!options.junit_path.empty()) side.stage_text(options.junit_path, junit(suite, outcomes));
   if (!options.json_path.empty()) side.stage_text(options.json_path, json(suite, outcomes, total));
   side.commit();

@@ -179,8 +179,9 @@ int main(int argc, char** argv) {
   }
 
   if (!leader) common.quiet = true;
-  // Only `run` shares its model runs over ranks; every other command is done by rank 0 alone.
-  if (!run->parsed()) {
+  // `run` and `batch` share their model runs and samples over ranks; every other
+  // command is done by rank 0 alone.
+  if (!run->parsed() && !batch->parsed()) {
     if (!leader) return 0;
     use_single_process();
   }

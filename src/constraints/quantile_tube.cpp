@@ -4,7 +4,10 @@
 #include <algorithm>
 #include <cmath>
 #include <stdexcept>
+#include <utility>
+#include <vector>
 
+#include "sigmatube/core/distributed.h"
 #include "sigmatube/core/parallel.h"
 
 namespace sigmatube::constraints {
@@ -65,12 +68,33 @@ Eigen::MatrixXd surrogate_quantiles(const expansion::Surrogate& surrogate, const
   const Eigen::Index n_columns = surrogate.coefficients.cols();
   Eigen::MatrixXd out(n_columns, static_cast<Eigen::Index>(levels.size()));
   const std::size_t blocks = static_cast<std::size_t>((n_columns + kColumnBlock - 1) / kColumnBlock);
-  parallel_for(blocks, threads, [&](std::size_t b) {
+  const auto block_columns = [&](std::size_t b) {
     const Eigen::Index first = static_cast<Eigen::Index>(b) * kColumnBlock;
-    const Eigen::Index count = std::min(kColumnBlock, n_columns - first);
-    const Eigen::MatrixXd values = basis * surrogate.coefficients.middleCols(first, count);
-    for (Eigen::Index c = 0; c < count; ++c) quantiles_of(values.col(c), levels, out.row(first + c));
-  });
+    return std::make_pair(first, std::min(kColumnBlock, n_columns - first));
+  };
+  // Column blocks over MPI ranks (the same blocks as one process: the product of
+  // a block is then the same bit for bit) and threads; every rank gets every row.
+  const Eigen::Index n_levels = static_cast<Eigen::Index>(levels.size());
+  run_distributed_items(
+      blocks, threads,
+      [&](std::size_t b) {
+        const auto [first, count] = block_columns(b);
+        const Eigen::MatrixXd values = basis * surrogate.coefficients.middleCols(first, count);
+        for (Eigen::Index c = 0; c < count; ++c) quantiles_of(values.col(c), levels, out.row(first + c));
+      },
+      [&](std::size_t b) {
+        const auto [first, count] = block_columns(b);
+        std::vector<double> packed;
+        for (Eigen::Index c = first; c < first + count; ++c)
+          for (Eigen::Index l = 0; l < n_levels; ++l) packed.push_back(out(c, l));
+        return packed;
+      },
+      [&](std::size_t b, const double* data, std::size_t size) {
+        const auto [first, count] = block_columns(b);
+        if (size != static_cast<std::size_t>(count * n_levels)) throw std::logic_error("surrogate_quantiles: bad block");
+        for (Eigen::Index c = 0; c < count; ++c)
+          for (Eigen::Index l = 0; l < n_levels; ++l) out(first + c, l) = data[c * n_levels + l];
+      });
   return out;
 }
 

@@ -5,10 +5,12 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <sstream>
 #include <stdexcept>
 
+#include "sigmatube/core/distributed.h"
 #include "sigmatube/core/error.h"
 #include "sigmatube/core/parallel.h"
 
@@ -296,6 +298,17 @@ ViolationResults ViolationStatistics::results() const {
   return out;
 }
 
+namespace {
+// The partial accumulators of one wave, computed over MPI ranks (each rank its
+// block of chunks, on its threads) and shared, so that every rank merges the
+// same partials in the same order: the single-process result for any rank count.
+void compute_partials(std::vector<ViolationStatistics>& partial, int threads, const std::function<void(std::size_t)>& fill) {
+  run_distributed_items(
+      partial.size(), threads, fill, [&](std::size_t w) { return partial[w].pack(); },
+      [&](std::size_t w, const double* data, std::size_t size) { partial[w].unpack(data, size); });
+}
+}  // namespace
+
 ViolationResults stream_violation_statistics(
     const std::vector<Constraint>& constraints, const Eigen::VectorXd& times, int n_outputs, long long count,
     long long chunk, int threads, const std::function<void(long long, long long, Eigen::MatrixXd&)>& fill) {
@@ -307,7 +320,7 @@ ViolationResults stream_violation_statistics(
     std::vector<ViolationStatistics> partial;
     partial.reserve(static_cast<std::size_t>(in_wave));
     for (long long w = 0; w < in_wave; ++w) partial.emplace_back(constraints, times, n_outputs, count);
-    parallel_for(static_cast<std::size_t>(in_wave), threads, [&](std::size_t w) {
+    compute_partials(partial, threads, [&](std::size_t w) {
       const long long begin = (wave + static_cast<long long>(w)) * chunk;
       const long long end = std::min(count, begin + chunk);
       Eigen::MatrixXd Y(end - begin, times.size() * n_outputs);
@@ -322,6 +335,91 @@ ViolationResults stream_violation_statistics(
 }  // namespace sigmatube::constraints
 
 namespace sigmatube::constraints {
+
+namespace {
+// Packing: integers travel as the bits of a double (memcpy, exact).
+void put_integer(std::vector<double>& out, long long v) {
+  double d;
+  std::memcpy(&d, &v, sizeof d);
+  out.push_back(d);
+}
+class Reader {
+ public:
+  Reader(const double* data, std::size_t size) : data_(data), size_(size) {}
+  double value() {
+    if (at_ >= size_) throw std::logic_error("ViolationStatistics::unpack: data too short");
+    return data_[at_++];
+  }
+  long long integer() {
+    const double d = value();
+    long long v;
+    std::memcpy(&v, &d, sizeof v);
+    return v;
+  }
+  std::size_t length(std::size_t most) {
+    const long long v = integer();
+    if (v < 0 || static_cast<unsigned long long>(v) > most) throw std::logic_error("ViolationStatistics::unpack: bad length");
+    return static_cast<std::size_t>(v);
+  }
+  void values(std::vector<double>& out, std::size_t n) {
+    if (n > size_ - at_) throw std::logic_error("ViolationStatistics::unpack: data too short");
+    out.assign(data_ + at_, data_ + at_ + n);
+    at_ += n;
+  }
+  bool done() const { return at_ == size_; }
+
+ private:
+  const double* data_;
+  std::size_t size_, at_ = 0;
+};
+}  // namespace
+
+std::vector<double> ViolationStatistics::pack() const {
+  std::vector<double> out;
+  put_integer(out, n_);
+  put_integer(out, joint_violations_);
+  for (const PerConstraint& p : per_) {
+    put_integer(out, static_cast<long long>(p.violations.size()));
+    for (long long v : p.violations) put_integer(out, v);
+    out.insert(out.end(), p.mean.begin(), p.mean.end());
+    out.insert(out.end(), p.m2.begin(), p.m2.end());
+    out.insert(out.end(), p.limit.begin(), p.limit.end());
+    for (const auto& kept : p.smallest) {
+      put_integer(out, static_cast<long long>(kept.size()));
+      out.insert(out.end(), kept.begin(), kept.end());
+    }
+    put_integer(out, static_cast<long long>(p.smallest_path.size()));
+    out.insert(out.end(), p.smallest_path.begin(), p.smallest_path.end());
+    out.push_back(p.path_limit);
+    put_integer(out, p.path_violations);
+    out.push_back(p.path_mean);
+  }
+  return out;
+}
+
+void ViolationStatistics::unpack(const double* data, std::size_t size) {
+  Reader in(data, size);
+  const long long n = in.integer(), joint = in.integer();
+  if (n < 0 || n > max_samples_ || joint < 0 || joint > n) throw std::logic_error("ViolationStatistics::unpack: bad counts");
+  std::vector<PerConstraint> per = per_;
+  for (PerConstraint& p : per) {
+    const std::size_t T = p.violations.size();
+    if (in.length(T) != T) throw std::logic_error("ViolationStatistics::unpack: report times differ");
+    for (auto& v : p.violations) v = in.integer();
+    in.values(p.mean, T);
+    in.values(p.m2, T);
+    in.values(p.limit, T);
+    for (auto& kept : p.smallest) in.values(kept, in.length(2 * p.k));
+    in.values(p.smallest_path, in.length(2 * p.k));
+    p.path_limit = in.value();
+    p.path_violations = in.integer();
+    p.path_mean = in.value();
+  }
+  if (!in.done()) throw std::logic_error("ViolationStatistics::unpack: data too long");
+  n_ = n;
+  joint_violations_ = joint;
+  per_ = std::move(per);
+}
 
 ViolationStatistics::Counts ViolationStatistics::counts() const {
   Counts c;
@@ -391,7 +489,7 @@ PrecisionSampling stream_to_precision(
       std::vector<ViolationStatistics> partial;
       partial.reserve(in_wave);
       for (std::size_t w = 0; w < in_wave; ++w) partial.emplace_back(constraints, times, n_outputs, cap);
-      parallel_for(in_wave, threads, [&](std::size_t w) {
+      compute_partials(partial, threads, [&](std::size_t w) {
         const Item& item = items[wave + w];
         Eigen::MatrixXd Y(item.end - item.begin, times.size() * n_outputs);
         fill(item.replicate, item.begin, item.end - item.begin, Y);

@@ -113,6 +113,33 @@ std::pair<std::size_t, std::size_t> rank_block(std::size_t count, int rank, int 
   return {at(rank), at(rank + 1)};
 }
 
+#ifdef SIGMATUBE_WITH_MPI
+// Ranks agree on the lowest failing job of [0, count) (error_at = count: none
+// here); its owner tells everybody what failed, and every rank throws it.
+void rethrow_lowest_error(std::size_t count, std::size_t error_at, const std::exception_ptr& error) {
+  const int rank = process_rank(), size = process_count();
+  unsigned long long local = error_at, lowest = 0;
+  MPI_Allreduce(&local, &lowest, 1, MPI_UNSIGNED_LONG_LONG, MPI_MIN, MPI_COMM_WORLD);
+  if (lowest >= count) return;
+  int owner = 0;
+  while (owner + 1 < size && rank_block(count, owner + 1, size).first <= lowest) ++owner;
+  std::string message;
+  int kind = static_cast<int>(ErrorKind::none);
+  if (rank == owner) kind = static_cast<int>(kind_of(error, message));
+  int length = static_cast<int>(message.size());
+  MPI_Bcast(&kind, 1, MPI_INT, owner, MPI_COMM_WORLD);
+  MPI_Bcast(&length, 1, MPI_INT, owner, MPI_COMM_WORLD);
+  message.resize(static_cast<std::size_t>(length));
+  if (length > 0) MPI_Bcast(message.data(), length, MPI_CHAR, owner, MPI_COMM_WORLD);
+  if (rank == owner) std::rethrow_exception(error);
+  switch (static_cast<ErrorKind>(kind)) {
+    case ErrorKind::numerical: throw NumericalError(message);
+    case ErrorKind::input: throw InputError(message);
+    default: throw std::runtime_error(message);
+  }
+}
+#endif
+
 void run_distributed_rows(std::size_t count, std::size_t width, std::size_t chunk, int threads,
                           const RowBlockFill& fill, double* all) {
   if (count == 0) return;
@@ -141,27 +168,7 @@ void run_distributed_rows(std::size_t count, std::size_t width, std::size_t chun
     return;
   }
 #ifdef SIGMATUBE_WITH_MPI
-  // Agree on the lowest failing job, then its owner tells everybody what failed.
-  unsigned long long local = error_at, lowest = 0;
-  MPI_Allreduce(&local, &lowest, 1, MPI_UNSIGNED_LONG_LONG, MPI_MIN, MPI_COMM_WORLD);
-  if (lowest < count) {
-    int owner = 0;
-    while (owner + 1 < size && rank_block(count, owner + 1, size).first <= lowest) ++owner;
-    std::string message;
-    int kind = static_cast<int>(ErrorKind::none);
-    if (rank == owner) kind = static_cast<int>(kind_of(error, message));
-    int length = static_cast<int>(message.size());
-    MPI_Bcast(&kind, 1, MPI_INT, owner, MPI_COMM_WORLD);
-    MPI_Bcast(&length, 1, MPI_INT, owner, MPI_COMM_WORLD);
-    message.resize(static_cast<std::size_t>(length));
-    if (length > 0) MPI_Bcast(message.data(), length, MPI_CHAR, owner, MPI_COMM_WORLD);
-    if (rank == owner) std::rethrow_exception(error);
-    switch (static_cast<ErrorKind>(kind)) {
-      case ErrorKind::numerical: throw NumericalError(message);
-      case ErrorKind::input: throw InputError(message);
-      default: throw std::runtime_error(message);
-    }
-  }
+  rethrow_lowest_error(count, error_at, error);
   std::vector<int> counts(static_cast<std::size_t>(size)), offsets(static_cast<std::size_t>(size));
   for (int r = 0; r < size; ++r) {
     const auto [b, e] = rank_block(count, r, size);
@@ -171,6 +178,68 @@ void run_distributed_rows(std::size_t count, std::size_t width, std::size_t chun
     offsets[static_cast<std::size_t>(r)] = static_cast<int>(b * width);
   }
   MPI_Allgatherv(MPI_IN_PLACE, 0, MPI_DATATYPE_NULL, all, counts.data(), offsets.data(), MPI_DOUBLE, MPI_COMM_WORLD);
+#else
+  if (error) std::rethrow_exception(error);
+#endif
+}
+
+void run_distributed_items(std::size_t count, int threads, const ItemCompute& compute, const ItemPack& pack,
+                           const ItemUnpack& unpack) {
+  if (count == 0) return;
+  if (!compute || !pack || !unpack) throw std::logic_error("run_distributed_items: bad arguments");
+  const int rank = process_rank(), size = process_count();
+  const auto [begin, end] = rank_block(count, rank, size);
+  std::mutex mutex;
+  std::size_t error_at = count;
+  std::exception_ptr error;
+  parallel_for(end - begin, threads, [&](std::size_t i) {
+    try {
+      compute(begin + i);
+    } catch (...) {
+      std::lock_guard<std::mutex> lock(mutex);
+      if (begin + i < error_at) {
+        error_at = begin + i;
+        error = std::current_exception();
+      }
+    }
+  });
+  if (size == 1) {
+    if (error) std::rethrow_exception(error);
+    return;
+  }
+#ifdef SIGMATUBE_WITH_MPI
+  rethrow_lowest_error(count, error_at, error);
+  // Own items packed back to back; first every item's length, then the data.
+  std::vector<double> own;
+  std::vector<long long> own_sizes;
+  for (std::size_t i = begin; i < end; ++i) {
+    const std::vector<double> packed = pack(i);
+    own_sizes.push_back(static_cast<long long>(packed.size()));
+    own.insert(own.end(), packed.begin(), packed.end());
+  }
+  std::vector<int> counts(static_cast<std::size_t>(size)), offsets(static_cast<std::size_t>(size));
+  for (int r = 0; r < size; ++r) {
+    const auto [b, e] = rank_block(count, r, size);
+    counts[static_cast<std::size_t>(r)] = static_cast<int>(e - b);
+    offsets[static_cast<std::size_t>(r)] = static_cast<int>(b);
+  }
+  std::vector<long long> sizes(count);
+  MPI_Allgatherv(own_sizes.data(), static_cast<int>(own_sizes.size()), MPI_LONG_LONG, sizes.data(), counts.data(),
+                 offsets.data(), MPI_LONG_LONG, MPI_COMM_WORLD);
+  std::vector<std::size_t> item_offset(count + 1, 0);
+  for (std::size_t i = 0; i < count; ++i) item_offset[i + 1] = item_offset[i] + static_cast<std::size_t>(sizes[i]);
+  if (item_offset[count] > static_cast<std::size_t>(INT_MAX))
+    throw std::logic_error("run_distributed_items: results too large for one MPI message");
+  for (int r = 0; r < size; ++r) {
+    const auto [b, e] = rank_block(count, r, size);
+    counts[static_cast<std::size_t>(r)] = static_cast<int>(item_offset[e] - item_offset[b]);
+    offsets[static_cast<std::size_t>(r)] = static_cast<int>(item_offset[b]);
+  }
+  std::vector<double> all(item_offset[count]);
+  MPI_Allgatherv(own.data(), static_cast<int>(own.size()), MPI_DOUBLE, all.data(), counts.data(), offsets.data(),
+                 MPI_DOUBLE, MPI_COMM_WORLD);
+  for (std::size_t i = 0; i < count; ++i)
+    if (i < begin || i >= end) unpack(i, all.data() + item_offset[i], item_offset[i + 1] - item_offset[i]);
 #else
   if (error) std::rethrow_exception(error);
 #endif

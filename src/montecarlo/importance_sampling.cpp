@@ -4,13 +4,14 @@
 #include <boost/math/distributions/normal.hpp>
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <stdexcept>
 
 #include "sigmatube/constraints/violation_statistics.h"
 #include "sigmatube/core/counter_rng.h"
+#include "sigmatube/core/distributed.h"
 #include "sigmatube/core/error.h"
-#include "sigmatube/core/parallel.h"
 
 namespace sigmatube::montecarlo {
 namespace {
@@ -37,6 +38,60 @@ struct Partial {
   double sum_wi = 0.0, sum_wi2 = 0.0, sum_wf = 0.0;
   std::vector<std::pair<long long, std::string>> failures;
 };
+
+// A chunk's partial sums as doubles for the other MPI ranks (integers and the
+// failure messages' bytes bit-copied), and back.
+double bits_of(long long v) {
+  double d;
+  std::memcpy(&d, &v, sizeof d);
+  return d;
+}
+long long integer_of(double d) {
+  long long v;
+  std::memcpy(&v, &d, sizeof v);
+  return v;
+}
+std::vector<double> pack(const Partial& p) {
+  std::vector<double> out{bits_of(p.successful), bits_of(p.failed), bits_of(p.violations), p.sum_wi, p.sum_wi2,
+                          p.sum_wf, bits_of(static_cast<long long>(p.failures.size()))};
+  for (const auto& [sample, message] : p.failures) {
+    out.push_back(bits_of(sample));
+    out.push_back(bits_of(static_cast<long long>(message.size())));
+    const std::size_t words = (message.size() + sizeof(double) - 1) / sizeof(double);
+    const std::size_t at = out.size();
+    out.resize(at + words, 0.0);
+    if (!message.empty()) std::memcpy(out.data() + at, message.data(), message.size());
+  }
+  return out;
+}
+Partial unpack(const double* data, std::size_t size) {
+  std::size_t at = 0;
+  const auto next = [&]() {
+    if (at >= size) throw std::logic_error("importance_sample: partial sums too short");
+    return data[at++];
+  };
+  Partial p;
+  p.successful = integer_of(next());
+  p.failed = integer_of(next());
+  p.violations = integer_of(next());
+  p.sum_wi = next();
+  p.sum_wi2 = next();
+  p.sum_wf = next();
+  const long long n_failures = integer_of(next());
+  if (n_failures < 0 || static_cast<unsigned long long>(n_failures) > size)
+    throw std::logic_error("importance_sample: bad failure count");
+  for (long long f = 0; f < n_failures; ++f) {
+    const long long sample = integer_of(next()), length = integer_of(next());
+    const std::size_t words = length < 0 ? 0 : (static_cast<std::size_t>(length) + sizeof(double) - 1) / sizeof(double);
+    if (length < 0 || words > size - at) throw std::logic_error("importance_sample: bad failure message");
+    std::string message(static_cast<std::size_t>(length), '\0');
+    if (length > 0) std::memcpy(message.data(), data + at, message.size());
+    at += words;
+    p.failures.emplace_back(sample, std::move(message));
+  }
+  if (at != size) throw std::logic_error("importance_sample: partial sums too long");
+  return p;
+}
 }  // namespace
 
 std::optional<Eigen::VectorXd> closest_violating_sample(const Eigen::MatrixXd& z, const Eigen::VectorXd& g) {
@@ -257,7 +312,9 @@ ImportanceSamplingResult importance_sample(const MixtureProposal& proposal, cons
     for (long long wave = 0; wave < n_chunks; wave += kChunksPerWave) {
       const long long in_wave = std::min(kChunksPerWave, n_chunks - wave);
       std::vector<Partial> partial(static_cast<std::size_t>(in_wave));
-      parallel_for(static_cast<std::size_t>(in_wave), options.threads, [&](std::size_t w) {
+      // The chunks of a wave over MPI ranks and threads; every rank then adds
+      // the same partial sums in chunk order (the single-process result).
+      run_distributed_items(static_cast<std::size_t>(in_wave), options.threads, [&](std::size_t w) {
         Partial& p = partial[w];
         const long long begin = done + (wave + static_cast<long long>(w)) * chunk;
         const long long end = std::min(batch_end, begin + chunk);
@@ -295,7 +352,8 @@ ImportanceSamplingResult importance_sample(const MixtureProposal& proposal, cons
             p.sum_wi2 += weight * weight;
           }
         }
-      });
+      }, [&](std::size_t w) { return pack(partial[w]); },
+      [&](std::size_t w, const double* data, std::size_t size) { partial[w] = unpack(data, size); });
       for (auto& p : partial) {
         total.successful += p.successful;
         total.failed += p.failed;

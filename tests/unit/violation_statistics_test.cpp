@@ -126,6 +126,41 @@ TEST(ViolationStatistics, StreamingQuantileEqualsSortedOrderStatistic) {
   EXPECT_EQ(s.path_margin >= 0.0, s.path_probability <= epsilon);
 }
 
+TEST(ViolationStatistics, PackedAccumulatorsMergeBitForBit) {
+  // What MPI ranks exchange (core/distributed.h): an accumulator packed and
+  // unpacked into a fresh one of the same shape merges exactly as the original.
+  GaussianPoints g;
+  g.times = Eigen::VectorXd::LinSpaced(3, 0.0, 2.0);
+  g.means = {{1.5, 0, 0}, {1.2, 0.3, 0}, {1.8, 0, 0.2}};
+  std::vector<Constraint> constraints = {Constraint(sphere(1.0, 0.05), kOutputs)};
+  constexpr long long kSamples = 6000;
+  ViolationStatistics first(constraints, g.times, 3, kSamples), second(constraints, g.times, 3, kSamples);
+  Eigen::MatrixXd Y(kSamples / 2, 9);
+  g.fill(0, kSamples / 2, Y);
+  first.add(Y, 0);
+  g.fill(kSamples / 2, kSamples, Y);
+  second.add(Y, kSamples / 2);
+  ViolationStatistics received(constraints, g.times, 3, kSamples);
+  const std::vector<double> packed = second.pack();
+  received.unpack(packed.data(), packed.size());
+  ViolationStatistics direct = first, via_pack = first;
+  direct.merge(second);
+  via_pack.merge(received);
+  const auto a = direct.results(), b = via_pack.results();
+  EXPECT_EQ(a.samples, b.samples);
+  EXPECT_EQ(a.joint_violations, b.joint_violations);
+  EXPECT_EQ(a.constraints[0].pointwise_violations, b.constraints[0].pointwise_violations);
+  EXPECT_EQ(a.constraints[0].clearance_mean, b.constraints[0].clearance_mean);
+  EXPECT_EQ(a.constraints[0].clearance_std, b.constraints[0].clearance_std);
+  EXPECT_EQ(a.constraints[0].clearance_quantile, b.constraints[0].clearance_quantile);
+  EXPECT_EQ(a.constraints[0].path_margin, b.constraints[0].path_margin);
+  EXPECT_EQ(a.constraints[0].path_minimum_mean, b.constraints[0].path_minimum_mean);
+  // Data of another shape is refused, never read past its end.
+  EXPECT_THROW(received.unpack(packed.data(), packed.size() - 1), std::logic_error);
+  ViolationStatistics other(constraints, Eigen::VectorXd::LinSpaced(2, 0.0, 1.0), 3, kSamples);
+  EXPECT_THROW(other.unpack(packed.data(), packed.size()), std::logic_error);
+}
+
 TEST(ViolationStatistics, ChunkingAndThreadsDoNotChangeResults) {
   GaussianPoints g;
   g.times = Eigen::VectorXd::LinSpaced(5, 0.0, 4.0);

@@ -94,6 +94,12 @@ class ViolationStatistics {
   /// report times spread over `threads` threads and the kept smallest values
   /// merged in bulk (one selection per time instead of a heap push per value).
   void merge_all(const std::vector<ViolationStatistics>& later, int threads);
+  /// The accumulator's state as doubles (counts bit-copied), for sending to
+  /// other MPI ranks; unpack() restores it into an accumulator built with the
+  /// same constraints, times, outputs and max_samples, bit for bit.
+  std::vector<double> pack() const;
+  /// @throws std::logic_error when `data` does not fit this accumulator's shape.
+  void unpack(const double* data, std::size_t size);
   long long samples() const { return n_; }
   ViolationResults results() const;
 

@@ -14,6 +14,7 @@
 #include <cstddef>
 #include <functional>
 #include <utility>
+#include <vector>
 
 // Layer core/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube {
@@ -55,5 +56,19 @@ using RowBlockFill = std::function<void(std::size_t begin, std::size_t end, doub
 /// NumericalError, InputError or std::runtime_error — with the same message).
 void run_distributed_rows(std::size_t count, std::size_t width, std::size_t chunk, int threads,
                           const RowBlockFill& fill, double* all);
+
+/// Work items [0, count) that each leave a variable-length result (e.g. a
+/// partial accumulator): rank r computes the items of its rank_block on its
+/// threads (compute(i), at most `threads` at once), packs each as doubles
+/// (pack(i)), and every rank receives every other rank's packed items and
+/// unpacks them (unpack(i, data, size)) in item order, so that all ranks then
+/// hold every item's result as if they had computed it. With one rank only
+/// compute runs (no packing). Exceptions as run_distributed_rows: the lowest
+/// failing item's is rethrown on every rank.
+using ItemCompute = std::function<void(std::size_t item)>;
+using ItemPack = std::function<std::vector<double>(std::size_t item)>;
+using ItemUnpack = std::function<void(std::size_t item, const double* data, std::size_t size)>;
+void run_distributed_items(std::size_t count, int threads, const ItemCompute& compute, const ItemPack& pack,
+                           const ItemUnpack& unpack);
 
 }  // namespace sigmatube

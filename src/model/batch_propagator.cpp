@@ -33,6 +33,16 @@ struct BlockProgram {
   int rows = 0;
 };
 
+// BlockOp's kinds are LaneExpression's instruction kinds, in the same order.
+constexpr bool same_kind(LaneExpression::Instruction::Kind a, lanes::BlockOp::Kind b) {
+  return static_cast<int>(a) == static_cast<int>(b);
+}
+static_assert(same_kind(LaneExpression::Instruction::Kind::copy, lanes::BlockOp::Kind::copy) &&
+              same_kind(LaneExpression::Instruction::Kind::pow, lanes::BlockOp::Kind::pow) &&
+              same_kind(LaneExpression::Instruction::Kind::square, lanes::BlockOp::Kind::square) &&
+              same_kind(LaneExpression::Instruction::Kind::function, lanes::BlockOp::Kind::function) &&
+              same_kind(LaneExpression::Instruction::Kind::max, lanes::BlockOp::Kind::max));
+
 double fold(const LaneExpression::Instruction& in, double a, double b) {
   using IK = LaneExpression::Instruction::Kind;
   switch (in.kind) {

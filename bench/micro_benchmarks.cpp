@@ -1,7 +1,8 @@
 // SPDX-License-Identifier: MIT
 // Google Benchmark micro-benchmarks: one integrator step, one basis-evaluation
 // batch, one right-hand side of a built-in and of an expression model, and one
-// closed-loop run of the HCW tracking case with each.
+// closed-loop run of the HCW tracking case with each, one at a time and as a
+// batch of lanes (model/batch_propagator.h).
 #include <benchmark/benchmark.h>
 
 #include <string>
@@ -12,6 +13,7 @@
 #include "sigmatube/app/case_loader.h"
 #include "sigmatube/expansion/multi_index.h"
 #include "sigmatube/expansion/surrogate.h"
+#include "sigmatube/model/batch_propagator.h"
 #include "sigmatube/model/builtin_models.h"
 #include "sigmatube/model/integrator.h"
 
@@ -99,6 +101,28 @@ void BM_ClosedLoopRunHcw(benchmark::State& state) {
   state.SetLabel(expression ? "expression" : "built-in");
 }
 BENCHMARK(BM_ClosedLoopRunHcw)->Arg(0)->Arg(1);
+
+// One batch of 64 lanes (the pipeline's block, app::ModelRunner::kDefaultBlock)
+// through the lane kernels: items are runs.
+void BM_BatchRunHcw(benchmark::State& state) {
+  const bool expression = state.range(0) != 0;
+  const app::LoadedCase& loaded = tracking_case(expression);
+  const auto& cl = *loaded.closed_loop;
+  const model::BatchPropagator batch(cl, loaded.options);
+  constexpr int kLanes = 64;
+  std::vector<model::Perturbation> p(kLanes, cl.nominal());
+  for (int l = 0; l < kLanes; ++l) p[static_cast<std::size_t>(l)].initial_offset[0] = 0.01 * l;
+  const std::size_t width = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
+  std::vector<double> rows(width * kLanes);
+  std::vector<std::uint8_t> ok(kLanes);
+  for (auto _ : state) {
+    batch.run(p.data(), kLanes, rows.data(), width, ok.data());
+    benchmark::DoNotOptimize(rows.data());
+  }
+  state.SetItemsProcessed(state.iterations() * kLanes);
+  state.SetLabel(std::string(expression ? "expression" : "built-in") + ", " + model::BatchPropagator::instruction_set());
+}
+BENCHMARK(BM_BatchRunHcw)->Arg(0)->Arg(1);
 
 }  // namespace
 

@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <optional>
 #include <string>
@@ -20,6 +21,116 @@
 #include "lane_kernels.h"
 
 namespace sigmatube::model {
+namespace {
+
+// The lane programs of all states as one accumulator-form block program
+// (lanes::BlockOp): variable v at row v, state i's result at row `variables` + i,
+// slot s ≥ 1 at row variables + n + s − 1, then the constant rows. Operations
+// whose operands are all constants are folded here with the arithmetic
+// LaneExpression::evaluate applies to them, so the values do not change.
+struct BlockProgram {
+  std::vector<lanes::BlockOp> ops;
+  std::vector<double> constants;
+  int rows = 0;
+};
+
+// BlockOp's kinds are LaneExpression's instruction kinds, in the same order.
+constexpr bool same_kind(LaneExpression::Instruction::Kind a, lanes::BlockOp::Kind b) {
+  return static_cast<int>(a) == static_cast<int>(b);
+}
+static_assert(same_kind(LaneExpression::Instruction::Kind::copy, lanes::BlockOp::Kind::copy) &&
+              same_kind(LaneExpression::Instruction::Kind::pow, lanes::BlockOp::Kind::pow) &&
+              same_kind(LaneExpression::Instruction::Kind::square, lanes::BlockOp::Kind::square) &&
+              same_kind(LaneExpression::Instruction::Kind::function, lanes::BlockOp::Kind::function) &&
+              same_kind(LaneExpression::Instruction::Kind::max, lanes::BlockOp::Kind::max));
+
+double fold(const LaneExpression::Instruction& in, double a, double b) {
+  using IK = LaneExpression::Instruction::Kind;
+  switch (in.kind) {
+    case IK::copy: return a;
+    case IK::neg: return -a;
+    case IK::square: return a * a;
+    case IK::function: return in.function(a);
+    case IK::add: return a + b;
+    case IK::sub: return a - b;
+    case IK::mul: return a * b;
+    case IK::div: return a / b;
+    case IK::min: return b < a ? b : a;
+    case IK::max: return a < b ? b : a;
+    case IK::pow: return std::pow(a, b);
+  }
+  return a;
+}
+
+BlockProgram block_program(const std::vector<LaneExpression>& programs, int variables) {
+  using IK = LaneExpression::Instruction::Kind;
+  using OK = LaneExpression::Operand::Kind;
+  using BK = lanes::BlockOp::Kind;
+  const int n = static_cast<int>(programs.size());
+  int slots = 1;
+  for (const auto& p : programs) slots = std::max(slots, p.slot_count());
+  const int slot_row = variables + n - 1;  // + s for slot s ≥ 1
+  const int first_constant = variables + n + slots - 1;
+  BlockProgram out;
+  auto constant_row = [&](double v) {
+    for (std::size_t c = 0; c < out.constants.size(); ++c)
+      if (std::memcmp(&out.constants[c], &v, sizeof v) == 0) return first_constant + static_cast<int>(c);
+    out.constants.push_back(v);
+    return first_constant + static_cast<int>(out.constants.size()) - 1;
+  };
+  for (int i = 0; i < n; ++i) {
+    std::vector<std::optional<double>> known(static_cast<std::size_t>(slots));
+    std::vector<lanes::BlockOp> ops;
+    auto row_of_slot = [&](int s) { return s == 0 ? variables + i : slot_row + s; };
+    struct Resolved {
+      bool constant;
+      double value;
+      int row;
+    };
+    auto resolve = [&](const LaneExpression::Operand& o) -> Resolved {
+      if (o.kind == OK::constant) return {true, o.value, 0};
+      if (o.kind == OK::variable) return {false, 0.0, o.index};
+      if (const auto& k = known[static_cast<std::size_t>(o.index)]) return {true, *k, 0};
+      return {false, 0.0, row_of_slot(o.index)};
+    };
+    for (const auto& in : programs[static_cast<std::size_t>(i)].instructions()) {
+      const bool unary = in.kind == IK::copy || in.kind == IK::neg || in.kind == IK::square || in.kind == IK::function;
+      const Resolved a = resolve(in.a), b = unary ? Resolved{true, 0.0, 0} : resolve(in.b);
+      auto& k = known[static_cast<std::size_t>(in.out)];
+      if (a.constant && b.constant) {
+        k = fold(in, a.value, b.value);
+        continue;
+      }
+      k.reset();
+      lanes::BlockOp op;
+      op.kind = static_cast<BK>(static_cast<int>(in.kind));
+      op.a = a.constant ? constant_row(a.value) : a.row;
+      op.b = unary ? op.a : b.constant ? constant_row(b.value) : b.row;
+      op.out = row_of_slot(in.out);
+      op.function = in.function;
+      ops.push_back(op);
+    }
+    if (const auto& k = known[0]) {
+      lanes::BlockOp op;
+      op.a = op.b = constant_row(*k);
+      op.out = variables + i;
+      ops.push_back(op);
+    }
+    // Chains on one row stay in the accumulator; a value is stored unless the
+    // next op overwrites its row from the accumulator without reading the row.
+    for (std::size_t q = 1; q < ops.size(); ++q) ops[q].load_a = ops[q].a != ops[q - 1].out;
+    for (std::size_t q = 0; q + 1 < ops.size(); ++q) {
+      const auto& next = ops[q + 1];
+      const bool next_unary = next.kind == BK::copy || next.kind == BK::neg || next.kind == BK::square || next.kind == BK::function;
+      ops[q].store = !(!next.load_a && next.out == ops[q].out && (next_unary || next.b != ops[q].out));
+    }
+    out.ops.insert(out.ops.end(), ops.begin(), ops.end());
+  }
+  out.rows = first_constant + static_cast<int>(out.constants.size());
+  return out;
+}
+
+}  // namespace
 
 BatchPropagator::BatchPropagator(const ClosedLoop& closed_loop, const casefile::CaseOptions& options)
     : closed_loop_(closed_loop), simulation_(options.simulation) {
@@ -264,8 +375,33 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
   observe(0, times.front(), x.data());
 
   // The whole RK4 step in one lane kernel where the model allows (built-in HCW
-  // with feedback, no disturbance); the stages one by one otherwise.
-  const bool fused_step = hcw_ && !open_loop && !disturbed;
+  // with feedback, or lane programs with at most four inputs; no disturbance);
+  // the stages one by one otherwise.
+  const bool fused_step = fused_steps_ && hcw_ && !open_loop && !disturbed;
+  const bool fused_programs = fused_steps_ && !programs_.empty() && !disturbed && m <= 4;
+  BlockProgram block;
+  lanes::ProgramStep step;
+  std::vector<double> block_work;
+  if (fused_programs) {
+    block = block_program(programs_, 1 + n + m + n_params);
+    step.n = n;
+    step.m = m;
+    step.n_params = n_params;
+    step.result_row = 1 + n + m + n_params;
+    step.rows = block.rows;
+    step.ops = block.ops.data();
+    step.op_count = block.ops.size();
+    step.constants = block.constants.data();
+    step.constant_count = static_cast<int>(block.constants.size());
+    step.feedback = !open_loop;
+    step.scale = scale.data();
+    step.bias = bias.data();
+    step.low = input_low_.data();
+    step.high = input_high_.data();
+    step.params = params.data();
+    block_work.resize(lanes::program_blocks_work_size(L, step));
+    lanes::program_blocks_load(L, x.data(), step, block_work.data());
+  }
   // Classical RK4 with OdeIntegrator::integrate_rk4's step rule and expression order.
   for (std::size_t k = 1; k < times.size(); ++k) {
     const double span = times[k] - times[k - 1];
@@ -281,6 +417,11 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
         std::swap(x, y);
         continue;
       }
+      if (fused_programs) {
+        const lanes::StageTerms a = terms(t).view(), b = terms(t + 0.5 * h).view(), c = terms(t + h).view();
+        lanes::program_rk4_step(L, t, h, a, b, c, step, OdeIntegrator::kDivergenceBound, block_work.data());
+        continue;
+      }
       rhs(t, x.data(), k1.data());
       lanes::axpy(nL, x.data(), half, k1.data(), y.data());
       rhs(t + 0.5 * h, y.data(), k2.data());
@@ -291,6 +432,7 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
       lanes::rk4_combine(nL, x.data(), sixth, k1.data(), k2.data(), k3.data(), k4.data());
       lanes::check_lanes(L, n, x.data(), OdeIntegrator::kDivergenceBound, ok);
     }
+    if (fused_programs) lanes::program_blocks_store(L, step, block_work.data(), x.data(), ok);
     observe(static_cast<Eigen::Index>(k), times[k], x.data());
   }
 }

@@ -247,3 +247,227 @@ void check_lanes(std::size_t L, int n, const double* __restrict x, double bound,
 }
 
 }  // namespace sigmatube::model::lanes
+
+// ------------------------------------------------------------ lane programs
+namespace sigmatube::model::lanes {
+namespace {
+
+constexpr std::size_t kB = kProgramBlock, kG = kProgramBlock / kW;  // lanes and vectors per row
+
+// Pre-broadcast stage terms in the workspace: x_ref n, u_ff m, gain m·n vectors.
+SIGMATUBE_INLINE double* broadcast_terms(const StageTerms& s, int n, int m, double* out) {
+  for (int j = 0; j < n; ++j) store(out + kW * j, broadcast(s.x_ref[j]));
+  for (int i = 0; i < m; ++i) store(out + kW * (n + i), broadcast(s.u_ff[i]));
+  for (int q = 0; q < m * n; ++q) store(out + kW * (n + m + q), broadcast(s.gain[q]));
+  return out;
+}
+
+// closed_loop_inputs_fixed<M> on one block: states from `state` rows, u_app to
+// `input` rows; terms pre-broadcast (x_ref, u_ff, gain). Same operations.
+template <int M>
+SIGMATUBE_INLINE void block_inputs(int n, const double* state, const double* terms, bool feedback, const double* scale,
+                                   const double* bias, const double* low, const double* high, double* input) {
+  const Vec zero = broadcast(0.0);
+  const double* gain = terms + kW * (n + M);
+  for (std::size_t g = 0; g < kG; ++g) {
+    Vec u[M > 0 ? M : 1];
+    for (int i = 0; i < M; ++i) u[i] = load(terms + kW * (n + i));
+    for (int j = 0; j < n && feedback; ++j) {
+      const Vec e = load(state + j * kB + kW * g) - load(terms + kW * j);
+      for (int i = 0; i < M; ++i) {
+        const Vec term = load(gain + kW * (i * n + j)) * e;
+        u[i] -= e != zero ? term : zero;
+      }
+    }
+    for (int i = 0; i < M; ++i) {
+      const Vec lo = broadcast(low[i]), hi = broadcast(high[i]);
+      Vec v = load(scale + i * kB + kW * g) * u[i] + load(bias + i * kB + kW * g);
+      v = v < lo ? lo : v;
+      v = hi < v ? hi : v;
+      store(input + i * kB + kW * g, v);
+    }
+  }
+}
+
+// The accumulator interpreter: kG vectors of the current chain in registers
+// (fully unrolled loops over the vectors of a row; calls go through memory).
+#define SIGMATUBE_ROW(body) _Pragma("GCC unroll 8") for (std::size_t g = 0; g < kG; ++g) { body; }
+SIGMATUBE_INLINE void run_block_ops(const BlockOp* ops, std::size_t count, double* w) {
+  using K = BlockOp::Kind;
+  Vec acc[kG] = {};
+  for (std::size_t q = 0; q < count; ++q) {
+    const BlockOp& op = ops[q];
+    if (op.load_a) {
+      const double* a = w + static_cast<std::size_t>(op.a) * kB;
+      SIGMATUBE_ROW(acc[g] = load(a + kW * g))
+    }
+    const double* b = w + static_cast<std::size_t>(op.b) * kB;
+    switch (op.kind) {
+      case K::copy: break;
+      case K::add: SIGMATUBE_ROW(acc[g] = acc[g] + load(b + kW * g)) break;
+      case K::sub: SIGMATUBE_ROW(acc[g] = acc[g] - load(b + kW * g)) break;
+      case K::mul: SIGMATUBE_ROW(acc[g] = acc[g] * load(b + kW * g)) break;
+      case K::div: SIGMATUBE_ROW(acc[g] = acc[g] / load(b + kW * g)) break;
+      case K::square: SIGMATUBE_ROW(acc[g] = acc[g] * acc[g]) break;
+      case K::neg: SIGMATUBE_ROW(acc[g] = -acc[g]) break;
+      case K::min: SIGMATUBE_ROW(const Vec bv = load(b + kW * g); acc[g] = bv < acc[g] ? bv : acc[g])  // std::min
+        break;
+      case K::max: SIGMATUBE_ROW(const Vec bv = load(b + kW * g); acc[g] = acc[g] < bv ? bv : acc[g])  // std::max
+        break;
+      case K::pow: case K::function: {
+        double v[kB];
+        SIGMATUBE_ROW(store(v + kW * g, acc[g]))
+        if (op.kind == K::pow) {
+          for (std::size_t e = 0; e < kB; ++e) v[e] = std::pow(v[e], b[e]);
+        } else {
+          for (std::size_t e = 0; e < kB; ++e) v[e] = op.function(v[e]);
+        }
+        SIGMATUBE_ROW(acc[g] = load(v + kW * g))
+        break;
+      }
+    }
+    if (op.store) {
+      double* out = w + static_cast<std::size_t>(op.out) * kB;
+      SIGMATUBE_ROW(store(out + kW * g, acc[g]))
+    }
+  }
+}
+
+// Lanes [l, l + kB) of an [rows][L] array into a block row, padded past `valid`
+// with the last real lane.
+SIGMATUBE_INLINE void gather_row(const double* row, std::size_t l, std::size_t valid, double* out) {
+  for (std::size_t w = 0; w < kB; ++w) out[w] = row[l + (w < valid ? w : valid - 1)];
+}
+SIGMATUBE_INLINE void copy_row(const double* from, double* to) { SIGMATUBE_ROW(store(to + kW * g, load(from + kW * g))) }
+
+typedef long long Mask __attribute__((vector_size(32)));  // −1 / 0 per lane, as Vec comparisons give
+
+// Workspace of the block programs: the pre-broadcast stage terms (3 sets), then
+// per block of kB lanes `block_rows` rows: the program rows, then xs (the
+// state, n), the RK sum (n), scale and bias (m each) and the finiteness mask.
+struct BlockLayout {
+  std::size_t n, m, term_size, block_rows, xs, sum, scale, bias, good;
+  explicit BlockLayout(const ProgramStep& p)
+      : n(static_cast<std::size_t>(p.n)), m(static_cast<std::size_t>(p.m)), term_size(kW * (n + m + m * n)) {
+    xs = static_cast<std::size_t>(p.rows);
+    sum = xs + n;
+    scale = sum + n;
+    bias = scale + m;
+    good = bias + m;
+    block_rows = good + 1;
+  }
+  std::size_t blocks(std::size_t L) const { return (L + kB - 1) / kB; }
+  double* block(double* work, std::size_t k) const { return work + 3 * term_size + k * block_rows * kB; }
+  const double* block(const double* work, std::size_t k) const { return work + 3 * term_size + k * block_rows * kB; }
+};
+
+template <int M>
+SIGMATUBE_INLINE void program_step_blocks(std::size_t L, double t, double h, const StageTerms& sa, const StageTerms& sb,
+                                          const StageTerms& sc, const ProgramStep& p, double bound, double* work) {
+  const BlockLayout layout(p);
+  const int n = p.n;
+  const double* ta = broadcast_terms(sa, n, M, work);
+  const double* tb = broadcast_terms(sb, n, M, work + layout.term_size);
+  const double* tc = broadcast_terms(sc, n, M, work + 2 * layout.term_size);
+  const Vec half = broadcast(0.5 * h), sixth = broadcast(h / 6.0), hv = broadcast(h), two = broadcast(2.0);
+  const Vec high = broadcast(bound), low = broadcast(-bound);
+  const double stage_time[4] = {t, t + 0.5 * h, t + 0.5 * h, t + h};
+  const double* stage_terms[4] = {ta, tb, tb, tc};
+
+  for (std::size_t k = 0; k < layout.blocks(L); ++k) {
+    double* w = layout.block(work, k);
+    double* state = w + kB;
+    double* input = state + static_cast<std::size_t>(n) * kB;
+    double* result = w + static_cast<std::size_t>(p.result_row) * kB;
+    double* xs = w + layout.xs * kB;
+    double* acc = w + layout.sum * kB;
+    const double* scale = w + layout.scale * kB;
+    const double* bias = w + layout.bias * kB;
+    for (int j = 0; j < n; ++j) copy_row(xs + j * kB, state + j * kB);
+    for (int s = 0; s < 4; ++s) {
+      SIGMATUBE_ROW(store(w + kW * g, broadcast(stage_time[s])))
+      block_inputs<M>(n, state, stage_terms[s], p.feedback, scale, bias, p.low, p.high, input);
+      run_block_ops(p.ops, p.op_count, w);
+      // The stage combinations of integrate_rk4: y = x + (h/2 | h/2 | h)·k and
+      // x + h/6·(((k1 + 2·k2) + 2·k3) + k4).
+      for (int j = 0; j < n; ++j) {
+        const double* kr = result + j * kB;
+        double* sum = acc + j * kB;
+        double* y = state + j * kB;
+        double* x0 = xs + j * kB;
+        switch (s) {
+          case 0: SIGMATUBE_ROW(const Vec kv = load(kr + kW * g); store(sum + kW * g, kv); store(y + kW * g, load(x0 + kW * g) + half * kv)) break;
+          case 1: SIGMATUBE_ROW(const Vec kv = load(kr + kW * g); store(sum + kW * g, load(sum + kW * g) + two * kv); store(y + kW * g, load(x0 + kW * g) + half * kv)) break;
+          case 2: SIGMATUBE_ROW(const Vec kv = load(kr + kW * g); store(sum + kW * g, load(sum + kW * g) + two * kv); store(y + kW * g, load(x0 + kW * g) + hv * kv)) break;
+          default: SIGMATUBE_ROW(store(x0 + kW * g, load(x0 + kW * g) + sixth * (load(sum + kW * g) + load(kr + kW * g)))) break;
+        }
+      }
+    }
+    // check_lanes: |x| ≤ bound (false for NaN), accumulated per lane.
+    double* good = w + layout.good * kB;
+    SIGMATUBE_ROW(Mask m; std::memcpy(&m, good + kW * g, sizeof m);
+                  for (int j = 0; j < n; ++j) {
+                    const Vec v = load(xs + j * kB + kW * g);
+                    m &= (v <= high) & (low <= v);
+                  } std::memcpy(good + kW * g, &m, sizeof m))
+  }
+}
+
+}  // namespace
+
+std::size_t program_blocks_work_size(std::size_t L, const ProgramStep& p) {
+  const BlockLayout layout(p);
+  return 3 * layout.term_size + layout.blocks(L) * layout.block_rows * kB;
+}
+
+void program_blocks_load(std::size_t L, const double* x, const ProgramStep& p, double* work) {
+  const BlockLayout layout(p);
+  const std::size_t rows = static_cast<std::size_t>(p.rows), n = layout.n, m = layout.m;
+  for (std::size_t k = 0; k < layout.blocks(L); ++k) {
+    double* w = layout.block(work, k);
+    const std::size_t l = k * kB, valid = std::min(kB, L - l);
+    for (std::size_t j = 0; j < n; ++j) gather_row(x + j * L, l, valid, w + (layout.xs + j) * kB);
+    for (std::size_t i = 0; i < m; ++i) {
+      gather_row(p.scale + i * L, l, valid, w + (layout.scale + i) * kB);
+      gather_row(p.bias + i * L, l, valid, w + (layout.bias + i) * kB);
+    }
+    const std::size_t param_row = 1 + n + m;
+    for (std::size_t i = 0; i < static_cast<std::size_t>(p.n_params); ++i)
+      gather_row(p.params + i * L, l, valid, w + (param_row + i) * kB);
+    for (int c = 0; c < p.constant_count; ++c) {
+      double* row = w + (rows - static_cast<std::size_t>(p.constant_count - c)) * kB;
+      std::fill(row, row + kB, p.constants[c]);
+    }
+    const Mask all = {-1, -1, -1, -1};
+    for (std::size_t g = 0; g < kG; ++g) std::memcpy(w + layout.good * kB + kW * g, &all, sizeof all);
+  }
+}
+
+void program_blocks_store(std::size_t L, const ProgramStep& p, const double* work, double* x, std::uint8_t* ok) {
+  const BlockLayout layout(p);
+  for (std::size_t k = 0; k < layout.blocks(L); ++k) {
+    const double* w = layout.block(work, k);
+    const std::size_t l = k * kB, valid = std::min(kB, L - l);
+    for (std::size_t j = 0; j < layout.n; ++j)
+      std::memcpy(x + j * L + l, w + (layout.xs + j) * kB, valid * sizeof(double));
+    for (std::size_t q = 0; q < valid; ++q) {
+      long long m;
+      std::memcpy(&m, w + layout.good * kB + q, sizeof m);
+      if (m == 0) ok[l + q] = 0;
+    }
+  }
+}
+
+SIGMATUBE_LANE_TARGETS
+void program_rk4_step(std::size_t L, double t, double h, const StageTerms& a, const StageTerms& b, const StageTerms& c,
+                      const ProgramStep& p, double bound, double* work) {
+  switch (p.m) {
+    case 0: program_step_blocks<0>(L, t, h, a, b, c, p, bound, work); break;
+    case 1: program_step_blocks<1>(L, t, h, a, b, c, p, bound, work); break;
+    case 2: program_step_blocks<2>(L, t, h, a, b, c, p, bound, work); break;
+    case 3: program_step_blocks<3>(L, t, h, a, b, c, p, bound, work); break;
+    default: program_step_blocks<4>(L, t, h, a, b, c, p, bound, work); break;
+  }
+}
+
+}  // namespace sigmatube::model::lanes

@@ -61,6 +61,61 @@ void hcw_stage(std::size_t L, const double* x, const StageTerms& s, const HcwLan
 void hcw_rk4_step(std::size_t L, const double* x, double* x_next, double h, const StageTerms& a, const StageTerms& b, const StageTerms& c,
                   const HcwLanes& lanes, double bound, std::uint8_t* ok);
 
+/// A lane program in accumulator form, run on blocks of kProgramBlock lanes by
+/// program_rk4_step. The block workspace is a list of rows of kProgramBlock lanes:
+/// rows 0 … V−1 are the variables of the right-hand sides (t, states, inputs,
+/// parameters, in LaneExpression's order), then one result row per state, then
+/// the programs' scratch slots and constant rows. An op computes
+///   acc = (load_a ? row a : acc) (kind) row b,  stored to row out when `store`,
+/// so that a chain of instructions on one slot stays in registers. The
+/// arithmetic per lane is that of LaneExpression::evaluate (the same IEEE
+/// operations on the same operands, in the same order).
+struct BlockOp {
+  enum class Kind : int { copy, add, sub, mul, div, pow, square, neg, function, min, max } kind = Kind::copy;
+  int a = 0, b = 0, out = 0;
+  bool load_a = true, store = true;
+  double (*function)(double) = nullptr;
+};
+/// Lanes per block of program_rk4_step (and per workspace row).
+constexpr std::size_t kProgramBlock = 32;
+
+/// An expression model's closed loop for program_rk4_step.
+struct ProgramStep {
+  int n = 0, m = 0;               // states, inputs (m ≤ 4)
+  int n_params = 0;
+  int result_row = 0;             // first of the n result rows (= 1 + n + m + n_params)
+  int rows = 0;                   // rows of the programs (variables, results, slots, constants)
+  const BlockOp* ops = nullptr;   // all states' programs, state 0 first
+  std::size_t op_count = 0;
+  const double* constants = nullptr;  // value of constant row rows − constant_count + c
+  int constant_count = 0;
+  bool feedback = true;           // false: u_cmd = u_ff (open loop)
+  const double* scale = nullptr;  // [m][L]
+  const double* bias = nullptr;   // [m][L]
+  const double* low = nullptr;    // m (shared)
+  const double* high = nullptr;   // m (shared)
+  const double* params = nullptr; // [n_params][L]
+};
+/// The block programs keep their lanes in a workspace of their own between
+/// steps, kProgramBlock lanes per block (state, parameters, input scale and
+/// bias, a per-lane finiteness record): program_blocks_work_size doubles for L
+/// lanes; program_blocks_load copies x [n][L] (and p's per-lane values) in;
+/// program_blocks_store copies the state back to x and clears ok[l] for a lane
+/// whose state was, after any step, not finite or beyond ±bound.
+std::size_t program_blocks_work_size(std::size_t L, const ProgramStep& p);
+void program_blocks_load(std::size_t L, const double* x, const ProgramStep& p, double* work);
+void program_blocks_store(std::size_t L, const ProgramStep& p, const double* work, double* x, std::uint8_t* ok);
+
+/// One whole classical RK4 step of an expression model's closed loop for all
+/// lanes of the workspace, block by block with the block's state, stages,
+/// inputs and program registers in L1: per stage the closed_loop_inputs
+/// arithmetic, the programs, then the combination of OdeIntegrator::integrate_rk4;
+/// then the check of check_lanes. The same values, bit for bit, as the
+/// stage-by-stage path of BatchPropagator::run (closed_loop_inputs,
+/// LaneExpression::evaluate, axpy, rk4_combine, check_lanes).
+void program_rk4_step(std::size_t L, double t, double h, const StageTerms& a, const StageTerms& b, const StageTerms& c,
+                      const ProgramStep& p, double bound, double* work);
+
 /// u_cmd = u_ff − Kt (x − x_ref) (e = 0 skipped, as Controller::command) and
 /// u_app = clamp(scale·u_cmd + bias, low, high), for every lane; any n and m.
 /// `error` holds L doubles of scratch. `feedback` false: u_cmd = u_ff.

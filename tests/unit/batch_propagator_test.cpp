@@ -29,16 +29,11 @@ const std::string kSource = SIGMATUBE_SOURCE_DIR;
 // many orders below this (relative to max(1, |value|)).
 constexpr double kExpressionTolerance = 1e-9;
 
-void expect_batch_matches_single_runs(const std::string& case_path, int lanes, bool bitwise = true) {
-  const app::LoadedCase loaded = app::load_case(case_path);
+// Perturbations of `lanes` runs at germ points from the project's counter-based
+// generator (any points will do; 2·N(0, 1) reaches the tails).
+std::vector<model::Perturbation> perturbations_for(const app::LoadedCase& loaded, int lanes) {
   const auto& cl = *loaded.closed_loop;
-  const model::BatchPropagator batch(cl, loaded.options);
-  ASSERT_TRUE(batch.supported());
   const int d = loaded.germ->dimension();
-  const auto T = static_cast<Eigen::Index>(cl.report_times().size());
-  const std::size_t width = static_cast<std::size_t>(T) * static_cast<std::size_t>(cl.output_count());
-
-  // Germ points from the project's counter-based generator (any points will do).
   const CounterRng rng(7);
   std::vector<model::Perturbation> perturbations(static_cast<std::size_t>(lanes), cl.nominal());
   std::vector<double> z(static_cast<std::size_t>(d)), xi(static_cast<std::size_t>(d));
@@ -47,6 +42,17 @@ void expect_batch_matches_single_runs(const std::string& case_path, int lanes, b
     loaded.germ->from_standard_normal(z.data(), xi.data());
     loaded.germ->apply(xi.data(), perturbations[static_cast<std::size_t>(l)]);
   }
+  return perturbations;
+}
+
+void expect_batch_matches_single_runs(const std::string& case_path, int lanes, bool bitwise = true) {
+  const app::LoadedCase loaded = app::load_case(case_path);
+  const auto& cl = *loaded.closed_loop;
+  const model::BatchPropagator batch(cl, loaded.options);
+  ASSERT_TRUE(batch.supported());
+  const auto T = static_cast<Eigen::Index>(cl.report_times().size());
+  const std::size_t width = static_cast<std::size_t>(T) * static_cast<std::size_t>(cl.output_count());
+  const std::vector<model::Perturbation> perturbations = perturbations_for(loaded, lanes);
   std::vector<double> rows(width * static_cast<std::size_t>(lanes));
   std::vector<std::uint8_t> ok(static_cast<std::size_t>(lanes), 0);
   batch.run(perturbations.data(), lanes, rows.data(), width, ok.data());
@@ -90,6 +96,72 @@ TEST(BatchPropagator, ExpressionModelLaneProgramsMatchMuparserRuns) {
   const app::LoadedCase loaded = app::load_case(path);
   EXPECT_TRUE(model::BatchPropagator(*loaded.closed_loop, loaded.options).compiled_expressions());
   expect_batch_matches_single_runs(path, 9, false);
+}
+
+// The whole-step lane kernels (built-in HCW; lane programs in blocks of
+// lanes::kProgramBlock lanes with constant folding and accumulator chains)
+// promise the arithmetic of the stage-by-stage loops: same bits, every output
+// and every ok flag, at lane counts below, at and around the block width.
+void expect_fused_matches_stagewise(const std::string& case_path, const std::vector<int>& lane_counts) {
+  const app::LoadedCase loaded = app::load_case(case_path);
+  const auto& cl = *loaded.closed_loop;
+  model::BatchPropagator fused(cl, loaded.options), stagewise(cl, loaded.options);
+  stagewise.use_fused_steps(false);
+  const std::size_t width = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
+  for (const int lanes : lane_counts) {
+    const std::vector<model::Perturbation> perturbations = perturbations_for(loaded, lanes);
+    std::vector<double> a(width * static_cast<std::size_t>(lanes)), b(a.size());
+    std::vector<std::uint8_t> ok_a(static_cast<std::size_t>(lanes)), ok_b(ok_a.size());
+    fused.run(perturbations.data(), lanes, a.data(), width, ok_a.data());
+    stagewise.run(perturbations.data(), lanes, b.data(), width, ok_b.data());
+    EXPECT_EQ(ok_a, ok_b) << lanes << " lanes";
+    EXPECT_EQ(std::memcmp(a.data(), b.data(), a.size() * sizeof(double)), 0) << lanes << " lanes";
+  }
+}
+
+TEST(BatchPropagator, FusedLaneProgramStepMatchesStagewiseBitwise) {
+  const std::string path = kSource + "/bench/cases/hcw-tracking-expression/case.toml";
+  const app::LoadedCase loaded = app::load_case(path);
+  ASSERT_TRUE(model::BatchPropagator(*loaded.closed_loop, loaded.options).compiled_expressions());
+  expect_fused_matches_stagewise(path, {1, 7, 32, 33, 64, 65});
+}
+
+// Time, functions, powers, min/max, a whole-constant term, two parameters (one
+// uncertain), two saturated inputs and a derived output (tests/cases/expression_lanes.toml).
+TEST(BatchPropagator, FusedLaneProgramStepWithFunctionsParametersAndLimits) {
+  const std::string path = kSource + "/tests/cases/expression_lanes.toml";
+  const app::LoadedCase loaded = app::load_case(path);
+  ASSERT_TRUE(model::BatchPropagator(*loaded.closed_loop, loaded.options).compiled_expressions());
+  expect_fused_matches_stagewise(path, {1, 5, 31, 40});
+  // And the one-run path (muparser) to the lane programs' rounding.
+  expect_batch_matches_single_runs(path, 11, false);
+}
+
+// A lane that leaves ±1e12 (OdeIntegrator::kDivergenceBound) is flagged by the
+// fused kernels as by check_lanes after each step.
+TEST(BatchPropagator, FusedLaneProgramStepFlagsDivergedLanes) {
+  const std::string path = kSource + "/tests/cases/expression_lanes.toml";
+  const app::LoadedCase loaded = app::load_case(path);
+  const auto& cl = *loaded.closed_loop;
+  model::BatchPropagator fused(cl, loaded.options), stagewise(cl, loaded.options);
+  stagewise.use_fused_steps(false);
+  std::vector<model::Perturbation> perturbations = perturbations_for(loaded, 9);
+  perturbations[3].initial_offset[0] = 1e13;  // beyond the bound from the start
+  perturbations[6].initial_offset[3] = 1e11;  // within the bound at first; the drag term then overflows
+  const std::size_t width = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
+  std::vector<double> a(width * 9), b(a.size());
+  std::vector<std::uint8_t> ok_a(9), ok_b(9);
+  fused.run(perturbations.data(), 9, a.data(), width, ok_a.data());
+  stagewise.run(perturbations.data(), 9, b.data(), width, ok_b.data());
+  EXPECT_EQ(ok_a, ok_b);
+  EXPECT_EQ(ok_a[3], 0);
+  EXPECT_EQ(ok_a[6], 0);
+  EXPECT_EQ(ok_a[0], 1);
+}
+
+// The built-in HCW whole-step kernel against its stage-by-stage loops.
+TEST(BatchPropagator, FusedHcwStepMatchesStagewiseBitwise) {
+  expect_fused_matches_stagewise(kSource + "/bench/cases/hcw-tracking/case.toml", {1, 6, 64});
 }
 
 // An expression outside the lane compiler's subset falls back to muparser (no program).

@@ -45,6 +45,13 @@ TEST(Determinism, RunWritesTheSameFileOnOneAndTwoThreadsRk4Case) {
   expect_identical_for_1_and_2_threads(kSource + "/tests/cases/hcw_minimal.toml", "rk4", "--mc-runs 300");
 }
 
+// An expression model on the fused lane-program step (model/batch_propagator.h):
+// 300 runs in batches of 64 lanes (blocks of 32 in the kernel), split over the threads.
+TEST(Determinism, RunWritesTheSameFileOnOneAndTwoThreadsExpressionLanesCase) {
+  expect_identical_for_1_and_2_threads(kSource + "/tests/cases/expression_lanes.toml", "expression",
+                                       "--mc-runs 300 --samples 20000");
+}
+
 // Adaptive dopri5 (one run at a time), saturation limits, several constraints.
 TEST(Determinism, RunWritesTheSameFileOnOneAndTwoThreadsDemoCase) {
   expect_identical_for_1_and_2_threads(kSource + "/cases/inspection-approach/case.toml", "demo",

@@ -44,6 +44,10 @@ class BatchPropagator {
   static const char* instruction_set();
   /// True when an expression model's right-hand sides run as lane programs.
   bool compiled_expressions() const { return !programs_.empty(); }
+  /// Whole-step lane kernels (on by default: built-in HCW with feedback, and
+  /// lane programs with at most four inputs, both without disturbance) or the
+  /// stage-by-stage loops; both give the same bits. Off only to check that.
+  void use_fused_steps(bool on) { fused_steps_ = on; }
 
   /// Runs lanes l = 0 … lanes−1 with perturbations[l] and writes lane l's outputs
   /// row-major by time (rows + l·row_stride)[t·n_out + o], as ClosedLoop::run's
@@ -58,6 +62,7 @@ class BatchPropagator {
   casefile::SimulationOptions simulation_;
   bool supported_ = false;
   bool hcw_ = false;
+  bool fused_steps_ = true;
   const PluginModel* plugin_ = nullptr;  // a model plugin: its rhs takes all lanes at once
   std::vector<LaneExpression> programs_;  // per state, variables t, states, inputs, parameters
   Eigen::VectorXd input_low_, input_high_;

@@ -59,6 +59,11 @@ class LaneExpression {
     double (*function)(double) = nullptr;
   };
 
+  /// The register form that evaluate() runs, and its number of slots (slot 0 is
+  /// the result), for lane kernels that run it in their own blocks.
+  const std::vector<Instruction>& instructions() const { return code_; }
+  int slot_count() const { return slots_; }
+
  private:
   static std::vector<Instruction> to_registers(const std::vector<Op>& ops, int& slots);
   std::vector<Instruction> code_;

@@ -15,6 +15,7 @@
 #include "sigmatube/model/controller.h"
 #include "sigmatube/model/expression_model.h"
 #include "sigmatube/model/integrator.h"
+#include "sigmatube/model/lane_dopri5.h"
 #include "sigmatube/model/plan.h"
 #include "sigmatube/model/plugin_model.h"
 #include "lane_kernels.h"
@@ -134,7 +135,8 @@ BlockProgram block_program(const std::vector<LaneExpression>& programs, int vari
 BatchPropagator::BatchPropagator(const ClosedLoop& closed_loop, const casefile::CaseOptions& options)
     : closed_loop_(closed_loop), simulation_(options.simulation) {
   const Model& model = closed_loop.model();
-  supported_ = simulation_.integrator == casefile::IntegratorKind::rk4;
+  supported_ = simulation_.integrator == casefile::IntegratorKind::rk4 ||
+               simulation_.integrator == casefile::IntegratorKind::dopri5;
   hcw_ = dynamic_cast<const HillClohessyWiltshire*>(&model) != nullptr;
   plugin_ = dynamic_cast<const PluginModel*>(&model);
   if (!hcw_ && options.model.builtin.empty() && dynamic_cast<const ExpressionModel*>(&model) != nullptr) {
@@ -168,8 +170,10 @@ void BatchPropagator::allow_avx512(bool on) { lanes::allow_avx512(on); }
 
 void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* rows, std::size_t row_stride,
                           std::uint8_t* ok) const {
-  if (!supported_) throw std::logic_error("BatchPropagator::run: only the rk4 integrator is batched");
+  if (!supported_) throw std::logic_error("BatchPropagator::run: integrator not batched");
   if (lanes <= 0) return;
+  if (simulation_.integrator == casefile::IntegratorKind::dopri5)  // per-lane step control: model/lane_dopri5.h
+    return dopri5_lanes(closed_loop_, simulation_, input_low_, input_high_, perturbations, lanes, rows, row_stride, ok);
   const Model& model = closed_loop_.model();
   const Plan& plan = closed_loop_.plan();
   const Controller& controller = closed_loop_.controller();

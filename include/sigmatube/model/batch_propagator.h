@@ -12,7 +12,9 @@
 // integrator (model/integrator.h), so every output is bit-identical to the
 // one-run path (expression programs: equal to muparser up to rounding); a lane whose state stops being finite or leaves ±1e12 is marked
 // failed and the caller reruns it through ClosedLoop::run for the message.
-// Supported: rk4 only (dopri5 adapts its step per run, which does not batch).
+// Supported: rk4, and dopri5 with per-lane step control (model/lane_dopri5.h:
+// each lane takes the steps of its run alone, bit-identical too; a lane that
+// trips the stiffness watchdog is handed back with ok = 0 like a diverged one).
 // The lane loops (src/model/lane_kernels.h) are compiled for AVX2 and for the
 // x86-64 baseline and picked at load time; both give the same bits (no FMA
 // contraction), so results never depend on the CPU, threads or ranks.
@@ -36,7 +38,7 @@ class BatchPropagator {
   /// `options` must be the case the closed loop was built from.
   BatchPropagator(const ClosedLoop& closed_loop, const casefile::CaseOptions& options);
 
-  /// True when the batched path applies (fixed-step rk4).
+  /// True when the batched path applies (rk4, or dopri5 through model/lane_dopri5.h).
   bool supported() const { return supported_; }
   /// Instruction set the lane kernels run with on this CPU ("avx512f (whole-step
   /// kernels), avx2", "avx2" or "x86-64 baseline").

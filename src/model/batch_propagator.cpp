@@ -31,6 +31,7 @@ namespace {
 struct BlockProgram {
   std::vector<lanes::BlockOp> ops;
   std::vector<double> constants;
+  std::vector<int> result_rows;  // per state
   int rows = 0;
 };
 
@@ -116,6 +117,14 @@ BlockProgram block_program(const std::vector<LaneExpression>& programs, int vari
       op.out = variables + i;
       ops.push_back(op);
     }
+    // A right-hand side that only copies a variable (x' = vx) is read from that
+    // row, unless it is the stage state of a state j < i, which the stage
+    // combination (state by state) overwrites before it reads state i's derivative.
+    out.result_rows.push_back(variables + i);
+    if (ops.size() == 1 && ops[0].kind == BK::copy && ops[0].a < variables && !(ops[0].a >= 1 && ops[0].a - 1 < i)) {
+      out.result_rows.back() = ops[0].a;
+      ops.clear();
+    }
     // Chains on one row stay in the accumulator; a value is stored unless the
     // next op overwrites its row from the accumulator without reading the row.
     for (std::size_t q = 1; q < ops.size(); ++q) ops[q].load_a = ops[q].a != ops[q - 1].out;
@@ -166,6 +175,7 @@ BatchPropagator::BatchPropagator(const ClosedLoop& closed_loop, const casefile::
 }
 
 const char* BatchPropagator::instruction_set() { return lanes::active_target(); }
+void BatchPropagator::allow_avx512(bool on) { lanes::allow_avx512(on); }
 
 void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* rows, std::size_t row_stride,
                           std::uint8_t* ok) const {
@@ -387,7 +397,7 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
     step.n = n;
     step.m = m;
     step.n_params = n_params;
-    step.result_row = 1 + n + m + n_params;
+    step.result_rows = block.result_rows.data();
     step.rows = block.rows;
     step.ops = block.ops.data();
     step.op_count = block.ops.size();

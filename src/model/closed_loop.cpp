@@ -11,6 +11,7 @@
 #include "sigmatube/core/error.h"
 #include "sigmatube/core/option_values.h"
 #include "sigmatube/model/controller.h"
+#include "sigmatube/model/grid_walk.h"
 #include "sigmatube/model/integrator.h"
 #include "sigmatube/model/plan.h"
 
@@ -182,18 +183,28 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
   integrator.integrate(rhs, report_times_, x.data(), observe, sample, &model_->state_names());
 }
 
-GridSegment grid_segment(const std::vector<double>& times, double t) {
+namespace {
+GridSegment segment_of(const std::vector<double>& times, double t, std::size_t* hint) {
   const auto T = static_cast<Eigen::Index>(times.size());
   GridSegment g;
   if (t >= times.back()) {
     g.k = T - 1;
   } else if (t > times.front()) {
-    g.k = static_cast<Eigen::Index>(std::upper_bound(times.begin(), times.end(), t) - times.begin()) - 1;
-    g.w = (t - times[static_cast<std::size_t>(g.k)]) /
-          (times[static_cast<std::size_t>(g.k) + 1] - times[static_cast<std::size_t>(g.k)]);
+    const std::size_t k = hint ? walk_to_interval(times, t, times.size() - 2, *hint)
+                               : static_cast<std::size_t>(std::upper_bound(times.begin(), times.end(), t) - times.begin()) - 1;
+    if (hint) *hint = k;
+    g.k = static_cast<Eigen::Index>(k);
+    g.w = (t - times[k]) / (times[k + 1] - times[k]);
   }
   g.k1 = std::min<Eigen::Index>(g.k + 1, T - 1);
   return g;
+}
+}  // namespace
+
+GridSegment grid_segment(const std::vector<double>& times, double t) { return segment_of(times, t, nullptr); }
+
+GridSegment grid_segment(const std::vector<double>& times, double t, std::size_t& hint) {
+  return segment_of(times, t, &hint);
 }
 
 }  // namespace sigmatube::model

@@ -9,6 +9,7 @@
 #include <sstream>
 
 #include "sigmatube/casefile/nearest_name.h"
+#include "sigmatube/model/grid_walk.h"
 
 namespace sigmatube::model {
 namespace {
@@ -216,6 +217,16 @@ void Plan::evaluate(double t, double* reference_state, double* feedforward) cons
   auto it = std::upper_bound(times_.begin(), times_.end(), clamped);
   std::size_t k = it == times_.begin() ? 0 : static_cast<std::size_t>(it - times_.begin()) - 1;
   if (k + 1 >= times_.size()) k = times_.size() - 2;
+  if (reference_state) evaluate_columns(states_, state_second_, k, clamped, reference_state);
+  if (feedforward) evaluate_columns(inputs_, input_second_, k, clamped, feedforward);
+}
+
+void Plan::evaluate(double t, std::size_t& hint, double* reference_state, double* feedforward) const {
+  const double clamped = std::clamp(t, times_.front(), times_.back());
+  const std::size_t last = times_.size() - 2;
+  // As evaluate(): upper_bound finds no knot above a NaN, hence the last interval.
+  const std::size_t k = std::isnan(clamped) ? last : walk_to_interval(times_, clamped, last, hint);
+  hint = k;
   if (reference_state) evaluate_columns(states_, state_second_, k, clamped, reference_state);
   if (feedforward) evaluate_columns(inputs_, input_second_, k, clamped, feedforward);
 }

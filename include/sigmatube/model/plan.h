@@ -47,6 +47,10 @@ class Plan {
 
   /// x_ref(t) and u_ff(t); either pointer may be null. Does not allocate.
   void evaluate(double t, double* reference_state, double* feedforward) const;
+  /// evaluate() with the knot interval searched from `hint` (this caller's last
+  /// interval, start with 0; updated): O(1) for times that move a little between
+  /// calls (model/grid_walk.h). The same values, bit for bit.
+  void evaluate(double t, std::size_t& hint, double* reference_state, double* feedforward) const;
   Eigen::VectorXd reference_state(double t) const;
   Eigen::VectorXd feedforward(double t) const;
 

@@ -433,8 +433,8 @@ void default_run(const std::string& label, const std::string& path) {
 
 // ------------------------------------------------------------------ (h)
 // dopri5 model runs of the bundled demo, one thread: one at a time through
-// ClosedLoop::run against lanes with per-lane step control (model/lane_dopri5.h)
-// in the blocks the pipeline uses; the outputs must be the same bits.
+// ClosedLoop::run (what the pipeline does) against lanes with per-lane step
+// control (model/lane_dopri5.h) in blocks of 64 and 16; the same bits.
 void dopri5_lanes_rate(long long runs) {
   std::cout << "\n(h) dopri5 model runs, bundled demo, 1 thread  [load " << load_text() << "]\n";
   const app::LoadedCase loaded = app::load_case(kSource + "/cases/inspection-approach/case.toml");
@@ -459,9 +459,19 @@ void dopri5_lanes_rate(long long runs) {
   double cpu_lanes[2] = {0, 0};
   const std::size_t blocks[2] = {app::ModelRunner::kDefaultBlock, 16};
   bool same = true;
+  const model::BatchPropagator batch(cl, loaded.options);
+  std::vector<model::Perturbation> perturbations(static_cast<std::size_t>(runs), cl.nominal());
+  for (long long r = 0; r < runs; ++r) {
+    const Eigen::RowVectorXd x = xi.row(r);
+    loaded.germ->apply(x.data(), perturbations[static_cast<std::size_t>(r)]);
+  }
   for (int b = 0; b < 2; ++b) {
     c0 = thread_cpu();
-    runner.run(xi, 0, 1, blocks[b], lanes.data(), ok.data(), false);
+    for (long long first = 0; first < runs; first += static_cast<long long>(blocks[b])) {
+      const int count = static_cast<int>(std::min<long long>(static_cast<long long>(blocks[b]), runs - first));
+      batch.run(perturbations.data() + first, count, lanes.data() + static_cast<std::size_t>(first) * width, width,
+                ok.data() + first);
+    }
     cpu_lanes[b] = thread_cpu() - c0;
     same = same && std::equal(scalar.begin(), scalar.end(), lanes.begin(),
                               [](double a, double c) { return std::memcmp(&a, &c, sizeof a) == 0; });

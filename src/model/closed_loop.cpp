@@ -143,10 +143,12 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
   Eigen::VectorXd x_ref(n), u_ff(m), u_cmd(m), u_app(m), x(n), derived(n_derived);
   const double* p = perturbation.parameters.data();
 
-  // Evaluates u_cmd and u_app at (t, state).
+  // Evaluates u_cmd and u_app at (t, state). The plan, gain and disturbance
+  // intervals are walked from the previous call's (model/grid_walk.h): same values.
+  std::size_t plan_hint = 0, gain_hint = 0, grid_hint = 0;
   auto inputs_at = [&](double t, const double* state) {
-    plan_->evaluate(t, x_ref.data(), u_ff.data());
-    controller_->command(t, state, x_ref.data(), u_ff.data(), u_cmd.data());
+    plan_->evaluate(t, plan_hint, x_ref.data(), u_ff.data());
+    controller_->command(t, gain_hint, state, x_ref.data(), u_ff.data(), u_cmd.data());
     for (int i = 0; i < m; ++i)
       u_app(i) = std::clamp(perturbation.input_scale(i) * u_cmd(i) + perturbation.input_bias(i), input_low_(i),
                             input_high_(i));
@@ -157,7 +159,7 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
     model_->rhs(t, state, u_app.data(), p, dxdt);
     if (disturbed) {
       // Piecewise linear between report times, held constant outside.
-      const GridSegment g = grid_segment(report_times_, t);
+      const GridSegment g = grid_segment(report_times_, t, grid_hint);
       for (int i = 0; i < n; ++i)
         dxdt[i] += (1.0 - g.w) * perturbation.disturbance(g.k, i) + g.w * perturbation.disturbance(g.k1, i);
     }

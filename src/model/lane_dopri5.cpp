@@ -159,15 +159,15 @@ struct LaneLoop {
   const Eigen::VectorXd& high;
   int n, m, n_derived, n_out;
   mutable std::vector<double> x_ref, u_ff, u_cmd, u_app, derived;
-  // Each lane's last plan, gain and report-grid intervals (walked from, not searched).
-  mutable std::vector<std::size_t> plan_hint, gain_hint, grid_hint;
+  // Each lane's last plan and gain intervals (walked from, not searched).
+  mutable std::vector<std::size_t> plan_hint, gain_hint;
 
   LaneLoop(const ClosedLoop& c, const Eigen::VectorXd& lo, const Eigen::VectorXd& hi, std::size_t lanes)
       : cl(c), low(lo), high(hi), n(c.model().state_count()), m(c.model().input_count()),
         n_derived(c.model().derived_output_count()), n_out(c.output_count()),
         x_ref(static_cast<std::size_t>(n)), u_ff(static_cast<std::size_t>(m)), u_cmd(static_cast<std::size_t>(m)),
         u_app(static_cast<std::size_t>(m)), derived(static_cast<std::size_t>(n_derived)), plan_hint(lanes, 0),
-        gain_hint(lanes, 0), grid_hint(lanes, 0) {}
+        gain_hint(lanes, 0) {}
 
   void inputs_at(std::size_t l, const Perturbation& p, double t, const double* state) const {
     cl.plan().evaluate(t, plan_hint[l], x_ref.data(), u_ff.data());
@@ -175,15 +175,6 @@ struct LaneLoop {
     for (int i = 0; i < m; ++i)
       u_app[static_cast<std::size_t>(i)] =
           std::clamp(p.input_scale(i) * u_cmd[static_cast<std::size_t>(i)] + p.input_bias(i), low(i), high(i));
-  }
-
-  void rhs(std::size_t l, const Perturbation& p, double t, const double* state, double* dxdt) const {
-    inputs_at(l, p, t, state);
-    cl.model().rhs(t, state, u_app.data(), p.parameters.data(), dxdt);
-    if (p.disturbance.rows() > 0) {
-      const GridSegment g = grid_segment(cl.report_times(), t, grid_hint[l]);
-      for (int i = 0; i < n; ++i) dxdt[i] += (1.0 - g.w) * p.disturbance(g.k, i) + g.w * p.disturbance(g.k1, i);
-    }
   }
 
   void observe(std::size_t l, const Perturbation& p, double t, const double* state, double* row) const {
@@ -241,12 +232,23 @@ void dopri5_lanes(const ClosedLoop& cl, const casefile::SimulationOptions& simul
   std::vector<long long> steps(L, 0), rejects(L, 0);
 
   // ClosedLoop::run's right-hand side at lane l's own time t_at[l], for the
-  // active lanes. Reads [n][L] state, writes [n][L] derivative.
+  // active lanes, lane by lane with the one-run path's functions (a version with
+  // the feedback law as a lane loop over per-lane gains measured slower: the
+  // gains must be blended and scattered per lane first). Reads [n][L] state,
+  // writes [n][L] derivative.
+  std::vector<std::size_t> grid_hint(L, 0);
   auto f = [&](const double* t_at, const double* state, double* dxdt) {
     for (std::size_t l = 0; l < L; ++l) {
       if (!active[l]) continue;
+      const Perturbation& p = perturbations[l];
       for (int i = 0; i < n; ++i) lane_x[static_cast<std::size_t>(i)] = state[i * L + l];
-      loop.rhs(l, perturbations[l], t_at[l], lane_x.data(), lane_dx.data());
+      loop.inputs_at(l, p, t_at[l], lane_x.data());
+      model.rhs(t_at[l], lane_x.data(), loop.u_app.data(), p.parameters.data(), lane_dx.data());
+      if (p.disturbance.rows() > 0) {
+        const GridSegment g = grid_segment(times, t_at[l], grid_hint[l]);
+        for (int i = 0; i < n; ++i)
+          lane_dx[static_cast<std::size_t>(i)] += (1.0 - g.w) * p.disturbance(g.k, i) + g.w * p.disturbance(g.k1, i);
+      }
       for (int i = 0; i < n; ++i) dxdt[i * L + l] = lane_dx[static_cast<std::size_t>(i)];
     }
   };

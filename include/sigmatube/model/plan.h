@@ -56,12 +56,15 @@ class Plan {
 
  private:
   void prepare();
-  void evaluate_columns(const Eigen::MatrixXd& values, const Eigen::MatrixXd& second, std::size_t k,
-                        double t, double* out) const;
+  using KnotRows = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
+  void evaluate_columns(const KnotRows& values, const KnotRows& second, std::size_t k, double t, double* out) const;
 
   std::vector<double> times_;
   Eigen::MatrixXd states_, inputs_;                 // [knots, columns]
   Eigen::MatrixXd state_second_, input_second_;     // spline second derivatives (cubic only)
+  // The same values knot by knot (row-major), so that one evaluation reads two
+  // adjacent rows instead of one cache line per column.
+  KnotRows state_rows_, input_rows_, state_second_rows_, input_second_rows_;
   casefile::Interpolation interpolation_ = casefile::Interpolation::linear;
 };
 

@@ -166,6 +166,7 @@ BatchPropagator::BatchPropagator(const ClosedLoop& closed_loop, const casefile::
 }
 
 const char* BatchPropagator::instruction_set() { return lanes::active_target(); }
+void BatchPropagator::allow_avx512(bool on) { lanes::allow_avx512(on); }
 
 void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* rows, std::size_t row_stride,
                           std::uint8_t* ok) const {

@@ -2,7 +2,9 @@
 #include "lane_kernels.h"
 
 #include <algorithm>
+#include <atomic>
 #include <cmath>
+#include <cstdint>
 #include <cstring>
 
 namespace sigmatube::model::lanes {
@@ -10,57 +12,82 @@ namespace {
 
 constexpr int kN = 6, kM = 3;
 
-// The HCW kernels work on blocks of four lanes held in GCC vector-extension
-// values: element-wise IEEE operations, 4-wide AVX2 in the AVX2 version and two
-// SSE2 halves in the baseline one, the same results either way. A last partial
-// block is padded by repeating its last lane and only its real lanes are stored.
-typedef double Vec __attribute__((vector_size(32)));
+// The whole-step kernels work on blocks of lanes held in GCC vector-extension
+// values V (Vec4: four doubles, Vec8: eight): element-wise IEEE operations —
+// 4-wide AVX2 or two SSE2 halves for Vec4, 8-wide AVX-512 for Vec8 — the same
+// results whatever the width. A last partial block is padded by repeating its
+// last lane and only its real lanes are stored.
+typedef double Vec4 __attribute__((vector_size(32)));
+typedef double Vec8 __attribute__((vector_size(64)));
+typedef long long Mask4 __attribute__((vector_size(32)));  // −1 / 0 per lane, as comparisons give
+typedef long long Mask8 __attribute__((vector_size(64)));
+template <class V> struct MaskOf;
+template <> struct MaskOf<Vec4> { using type = Mask4; };
+template <> struct MaskOf<Vec8> { using type = Mask8; };
+template <class V> constexpr std::size_t kWidth = sizeof(V) / sizeof(double);
+
+// The stage-by-stage kernels below use four lanes.
+using Vec = Vec4;
 constexpr std::size_t kW = 4;
 
 #define SIGMATUBE_INLINE inline __attribute__((always_inline))
-SIGMATUBE_INLINE Vec load(const double* p) {
-  Vec v;
+template <class V = Vec>
+SIGMATUBE_INLINE V load(const double* p) {
+  V v;
   std::memcpy(&v, p, sizeof v);
   return v;
 }
-SIGMATUBE_INLINE void store(double* p, Vec v) { std::memcpy(p, &v, sizeof v); }
-SIGMATUBE_INLINE Vec broadcast(double s) { return Vec{s, s, s, s}; }
+template <class V>
+SIGMATUBE_INLINE void store(double* p, V v) { std::memcpy(p, &v, sizeof v); }
+template <class V = Vec>
+SIGMATUBE_INLINE V broadcast(double s) {
+  if constexpr (kWidth<V> == 8) {
+    // (GCC 12 builds {s, …, s} of eight as eight masked broadcasts; a shuffle of
+    // element 0 is one vbroadcastsd.)
+    const V first = {s};
+    return __builtin_shuffle(first, Mask8{0, 0, 0, 0, 0, 0, 0, 0});
+  } else {
+    return V{s, s, s, s};
+  }
+}
 
+template <class V>
 struct VecTerms {
-  Vec x_ref[kN], u_ff[kM], gain[kM * kN];
+  V x_ref[kN], u_ff[kM], gain[kM * kN];
   SIGMATUBE_INLINE explicit VecTerms(const StageTerms& s) {
-    for (int j = 0; j < kN; ++j) x_ref[j] = broadcast(s.x_ref[j]);
-    for (int i = 0; i < kM; ++i) u_ff[i] = broadcast(s.u_ff[i]);
-    for (int q = 0; q < kM * kN; ++q) gain[q] = broadcast(s.gain[q]);
+    for (int j = 0; j < kN; ++j) x_ref[j] = broadcast<V>(s.x_ref[j]);
+    for (int i = 0; i < kM; ++i) u_ff[i] = broadcast<V>(s.u_ff[i]);
+    for (int q = 0; q < kM * kN; ++q) gain[q] = broadcast<V>(s.gain[q]);
   }
 };
 
 // Per-lane constants of one block.
+template <class V>
 struct VecLanes {
-  Vec scale[kM], bias[kM], nl, lo[kM], hi[kM];
+  V scale[kM], bias[kM], nl, lo[kM], hi[kM];
 };
 
-// One HCW closed-loop stage of four lanes. The selects are of values computed
+// One HCW closed-loop stage of one block. The selects are of values computed
 // unconditionally; their results are those of the branches of the one-run path
 // (Controller::command skips e == 0; std::clamp(v, lo, hi); NaN passes).
-SIGMATUBE_INLINE void hcw_block(const Vec* xs, const VecTerms& s, const VecLanes& c, Vec* u,
-                                                     Vec* a, Vec* d) {
-  const Vec zero = broadcast(0.0);
+template <class V>
+SIGMATUBE_INLINE void hcw_block(const V* xs, const VecTerms<V>& s, const VecLanes<V>& c, V* u, V* a, V* d) {
+  const V zero = broadcast<V>(0.0);
   for (int i = 0; i < kM; ++i) u[i] = s.u_ff[i];
   for (int j = 0; j < kN; ++j) {
-    const Vec e = xs[j] - s.x_ref[j];
+    const V e = xs[j] - s.x_ref[j];
     for (int i = 0; i < kM; ++i) {
-      const Vec term = s.gain[i * kN + j] * e;
+      const V term = s.gain[i * kN + j] * e;
       u[i] -= e != zero ? term : zero;
     }
   }
   for (int i = 0; i < kM; ++i) {
-    Vec v = c.scale[i] * u[i] + c.bias[i];
+    V v = c.scale[i] * u[i] + c.bias[i];
     v = v < c.lo[i] ? c.lo[i] : v;
     v = c.hi[i] < v ? c.hi[i] : v;
     a[i] = v;
   }
-  const Vec three = broadcast(3.0), two = broadcast(2.0), minus_two = broadcast(-2.0);
+  const V three = broadcast<V>(3.0), two = broadcast<V>(2.0), minus_two = broadcast<V>(-2.0);
   d[0] = xs[3];
   d[1] = xs[4];
   d[2] = xs[5];
@@ -69,38 +96,107 @@ SIGMATUBE_INLINE void hcw_block(const Vec* xs, const VecTerms& s, const VecLanes
   d[5] = -c.nl * c.nl * xs[2] + a[2];
 }
 
-// Lanes [l, l + kW) of an [rows][L] array, padded past `valid` with the last
+// Lanes [l, l + width) of an [rows][L] array, padded past `valid` with the last
 // real lane; stored back only for the real lanes.
-SIGMATUBE_INLINE Vec gather(const double* row, std::size_t l, std::size_t valid) {
-  if (valid == kW) return load(row + l);
-  double t[kW];
-  for (std::size_t w = 0; w < kW; ++w) t[w] = row[l + (w < valid ? w : valid - 1)];
-  return load(t);
+template <class V = Vec>
+SIGMATUBE_INLINE V gather(const double* row, std::size_t l, std::size_t valid) {
+  constexpr std::size_t W = kWidth<V>;
+  if (valid == W) return load<V>(row + l);
+  double t[W];
+  for (std::size_t w = 0; w < W; ++w) t[w] = row[l + (w < valid ? w : valid - 1)];
+  return load<V>(t);
 }
-SIGMATUBE_INLINE void scatter(double* row, std::size_t l, std::size_t valid, Vec v) {
-  if (valid == kW) return store(row + l, v);
-  double t[kW];
+template <class V>
+SIGMATUBE_INLINE void scatter(double* row, std::size_t l, std::size_t valid, V v) {
+  constexpr std::size_t W = kWidth<V>;
+  if (valid == W) return store(row + l, v);
+  double t[W];
   store(t, v);
   for (std::size_t w = 0; w < valid; ++w) row[l + w] = t[w];
 }
 
-SIGMATUBE_INLINE VecLanes lane_constants(const HcwLanes& c, std::size_t L, std::size_t l, std::size_t valid) {
-  VecLanes v;
+template <class V>
+SIGMATUBE_INLINE VecLanes<V> lane_constants(const HcwLanes& c, std::size_t L, std::size_t l, std::size_t valid) {
+  VecLanes<V> v;
   for (int i = 0; i < kM; ++i) {
-    v.scale[i] = gather(c.scale + i * L, l, valid);
-    v.bias[i] = gather(c.bias + i * L, l, valid);
-    v.lo[i] = broadcast(c.low[i]);
-    v.hi[i] = broadcast(c.high[i]);
+    v.scale[i] = gather<V>(c.scale + i * L, l, valid);
+    v.bias[i] = gather<V>(c.bias + i * L, l, valid);
+    v.lo[i] = broadcast<V>(c.low[i]);
+    v.hi[i] = broadcast<V>(c.high[i]);
   }
-  v.nl = gather(c.mean_motion, l, valid);
+  v.nl = gather<V>(c.mean_motion, l, valid);
   return v;
 }
 
+template <class V>
+SIGMATUBE_INLINE void hcw_rk4_step_blocks(std::size_t L, const double* x, double* x_next, double h,
+                                          const StageTerms& sa, const StageTerms& sb, const StageTerms& sc,
+                                          const HcwLanes& c) {
+  constexpr std::size_t W = kWidth<V>;
+  const V half = broadcast<V>(0.5 * h), sixth = broadcast<V>(h / 6.0), hv = broadcast<V>(h), two = broadcast<V>(2.0);
+  const VecTerms<V> ta(sa), tb(sb), tc(sc);
+  for (std::size_t l = 0; l < L; l += W) {
+    const std::size_t valid = std::min(W, L - l);
+    const VecLanes<V> lanes = lane_constants<V>(c, L, l, valid);
+    V xs[kN], y[kN], k1[kN], k2[kN], k3[kN], k4[kN], u[kM], a[kM];
+    for (int j = 0; j < kN; ++j) xs[j] = gather<V>(x + j * L, l, valid);
+    hcw_block(xs, ta, lanes, u, a, k1);
+    for (int j = 0; j < kN; ++j) y[j] = xs[j] + half * k1[j];
+    hcw_block(y, tb, lanes, u, a, k2);
+    for (int j = 0; j < kN; ++j) y[j] = xs[j] + half * k2[j];
+    hcw_block(y, tb, lanes, u, a, k3);
+    for (int j = 0; j < kN; ++j) y[j] = xs[j] + hv * k3[j];
+    hcw_block(y, tc, lanes, u, a, k4);
+    for (int j = 0; j < kN; ++j)
+      scatter(x_next + j * L, l, valid, xs[j] + sixth * (k1[j] + two * k2[j] + two * k3[j] + k4[j]));
+  }
+}
+
+// The whole-step kernels are compiled once more for AVX-512 with eight lanes per
+// vector (Vec8, no FMA either: -ffp-contract=off) and picked at run time.
+#if defined(__GNUC__) && defined(__x86_64__) && !defined(SIGMATUBE_NO_MULTIVERSIONING)
+#define SIGMATUBE_AVX512_KERNELS 1
+#define SIGMATUBE_AVX512_TARGET __attribute__((target("avx512f")))
+std::atomic<bool> avx512_allowed{true};
+bool avx512() {
+  static const bool yes = [] {
+    __builtin_cpu_init();
+    return __builtin_cpu_supports("avx512f") != 0;
+  }();
+  return yes && avx512_allowed.load(std::memory_order_relaxed);
+}
+#else
+#define SIGMATUBE_AVX512_KERNELS 0
+bool avx512() { return false; }
+#endif
+
+SIGMATUBE_LANE_TARGETS
+void hcw_rk4_step_vec4(std::size_t L, const double* x, double* x_next, double h, const StageTerms& a,
+                       const StageTerms& b, const StageTerms& c, const HcwLanes& lanes) {
+  hcw_rk4_step_blocks<Vec4>(L, x, x_next, h, a, b, c, lanes);
+}
+#if SIGMATUBE_AVX512_KERNELS
+SIGMATUBE_AVX512_TARGET
+void hcw_rk4_step_vec8(std::size_t L, const double* x, double* x_next, double h, const StageTerms& a,
+                       const StageTerms& b, const StageTerms& c, const HcwLanes& lanes) {
+  hcw_rk4_step_blocks<Vec8>(L, x, x_next, h, a, b, c, lanes);
+}
+#endif
+
 }  // namespace
+
+void allow_avx512(bool on) {
+#if SIGMATUBE_AVX512_KERNELS
+  avx512_allowed.store(on, std::memory_order_relaxed);
+#else
+  (void)on;
+#endif
+}
 
 const char* active_target() {
 #if defined(__GNUC__) && defined(__x86_64__) && !defined(SIGMATUBE_NO_MULTIVERSIONING)
   __builtin_cpu_init();
+  if (avx512()) return "avx512f (whole-step kernels), avx2";
   return __builtin_cpu_supports("avx2") ? "avx2" : "x86-64 baseline";
 #else
   return "portable (no multiversioning)";
@@ -110,10 +206,10 @@ const char* active_target() {
 SIGMATUBE_LANE_TARGETS
 void hcw_stage(std::size_t L, const double* x, const StageTerms& s, const HcwLanes& c, double* u_cmd, double* u_app,
                double* dx) {
-  const VecTerms st(s);
+  const VecTerms<Vec> st(s);
   for (std::size_t l = 0; l < L; l += kW) {
     const std::size_t valid = std::min(kW, L - l);
-    const VecLanes lanes = lane_constants(c, L, l, valid);
+    const VecLanes<Vec> lanes = lane_constants<Vec>(c, L, l, valid);
     Vec xs[kN], u[kM], a[kM], d[kN];
     for (int j = 0; j < kN; ++j) xs[j] = gather(x + j * L, l, valid);
     hcw_block(xs, st, lanes, u, a, d);
@@ -125,26 +221,14 @@ void hcw_stage(std::size_t L, const double* x, const StageTerms& s, const HcwLan
   }
 }
 
-SIGMATUBE_LANE_TARGETS
 void hcw_rk4_step(std::size_t L, const double* x, double* x_next, double h, const StageTerms& sa, const StageTerms& sb,
                   const StageTerms& sc, const HcwLanes& c, double bound, std::uint8_t* ok) {
-  const Vec half = broadcast(0.5 * h), sixth = broadcast(h / 6.0), hv = broadcast(h), two = broadcast(2.0);
-  const VecTerms ta(sa), tb(sb), tc(sc);
-  for (std::size_t l = 0; l < L; l += kW) {
-    const std::size_t valid = std::min(kW, L - l);
-    const VecLanes lanes = lane_constants(c, L, l, valid);
-    Vec xs[kN], y[kN], k1[kN], k2[kN], k3[kN], k4[kN], u[kM], a[kM];
-    for (int j = 0; j < kN; ++j) xs[j] = gather(x + j * L, l, valid);
-    hcw_block(xs, ta, lanes, u, a, k1);
-    for (int j = 0; j < kN; ++j) y[j] = xs[j] + half * k1[j];
-    hcw_block(y, tb, lanes, u, a, k2);
-    for (int j = 0; j < kN; ++j) y[j] = xs[j] + half * k2[j];
-    hcw_block(y, tb, lanes, u, a, k3);
-    for (int j = 0; j < kN; ++j) y[j] = xs[j] + hv * k3[j];
-    hcw_block(y, tc, lanes, u, a, k4);
-    for (int j = 0; j < kN; ++j)
-      scatter(x_next + j * L, l, valid, xs[j] + sixth * (k1[j] + two * k2[j] + two * k3[j] + k4[j]));
-  }
+#if SIGMATUBE_AVX512_KERNELS
+  if (avx512())
+    hcw_rk4_step_vec8(L, x, x_next, h, sa, sb, sc, c);
+  else
+#endif
+    hcw_rk4_step_vec4(L, x, x_next, h, sa, sb, sc, c);
   check_lanes(L, kN, x_next, bound, ok);
 }
 

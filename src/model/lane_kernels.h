@@ -6,9 +6,10 @@
 // multi-versioning (SIGMATUBE_LANE_TARGETS): once for AVX2 and once for the
 // x86-64 baseline (SSE2). The loader picks the version for the CPU it runs on
 // (GNU ifunc), so one binary uses 4-wide AVX2 where present and stays correct
-// elsewhere.
+// elsewhere. The built-in HCW whole-step kernel has a third, AVX-512 version
+// with eight lanes per vector (hcw_rk4_step picks it at run time).
 //
-// Bit-identical on every CPU: the AVX2 version does not enable FMA, so no
+// Bit-identical on every CPU: the AVX2 and AVX-512 versions do not enable FMA, so no
 // multiply–add is contracted, and both versions perform the IEEE operations of
 // the one-run path (ClosedLoop::run) in the same order per lane. Vector and scalar
 // IEEE add, multiply, divide and square root round alike, so the results equal
@@ -28,8 +29,12 @@
 namespace sigmatube::model::lanes {
 
 /// Name of the instruction set the lane kernels run with on this CPU
-/// ("avx2" or "x86-64 baseline").
+/// ("avx512f (whole-step kernels), avx2", "avx2" or "x86-64 baseline").
 const char* active_target();
+/// The built-in HCW whole-step kernel also has an AVX-512 version (eight lanes
+/// per vector, no FMA), used where the CPU has AVX-512F unless switched off here
+/// (for checks: the results are the same bits either way).
+void allow_avx512(bool on);
 
 /// Values of the closed loop at one stage time, shared by all lanes.
 struct StageTerms {

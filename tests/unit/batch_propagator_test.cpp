@@ -83,8 +83,8 @@ TEST(BatchPropagator, MatchesOneRunPathBitwiseTrackingCase) {
   expect_batch_matches_single_runs(kSource + "/bench/cases/hcw-tracking/case.toml", 64);
 }
 
-// The fused RK4 lane kernel works on blocks of four lanes: a last partial block
-// (7 = 4 + 3 lanes) and a single lane must give the one-run results too.
+// The fused RK4 lane kernel works on blocks of four lanes (eight with AVX-512): a last partial block
+// (7 = 4 + 3 lanes, or one short block of eight) and a single lane must give the one-run results too.
 TEST(BatchPropagator, MatchesOneRunPathBitwiseWithPartialLaneBlocks) {
   expect_batch_matches_single_runs(kSource + "/bench/cases/hcw-tracking/case.toml", 7);
   expect_batch_matches_single_runs(kSource + "/bench/cases/hcw-tracking/case.toml", 1);
@@ -162,6 +162,28 @@ TEST(BatchPropagator, FusedLaneProgramStepFlagsDivergedLanes) {
 // The built-in HCW whole-step kernel against its stage-by-stage loops.
 TEST(BatchPropagator, FusedHcwStepMatchesStagewiseBitwise) {
   expect_fused_matches_stagewise(kSource + "/bench/cases/hcw-tracking/case.toml", {1, 6, 64});
+}
+
+// The AVX-512 version of the HCW whole-step kernel (eight lanes per vector) and
+// the four-lane AVX2/baseline version give the same bits (on a CPU without
+// AVX-512F both runs take the four-lane version).
+TEST(BatchPropagator, HcwStepSameBitsWithAndWithoutAvx512) {
+  const std::string path = kSource + "/bench/cases/hcw-tracking/case.toml";
+  const app::LoadedCase loaded = app::load_case(path);
+  const auto& cl = *loaded.closed_loop;
+  const model::BatchPropagator batch(cl, loaded.options);
+  const std::size_t width = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
+  for (const int lanes : {3, 13, 64}) {
+    const std::vector<model::Perturbation> perturbations = perturbations_for(loaded, lanes);
+    std::vector<double> a(width * static_cast<std::size_t>(lanes)), b(a.size());
+    std::vector<std::uint8_t> ok_a(static_cast<std::size_t>(lanes)), ok_b(ok_a.size());
+    batch.run(perturbations.data(), lanes, a.data(), width, ok_a.data());
+    model::BatchPropagator::allow_avx512(false);
+    batch.run(perturbations.data(), lanes, b.data(), width, ok_b.data());
+    model::BatchPropagator::allow_avx512(true);
+    EXPECT_EQ(ok_a, ok_b) << lanes << " lanes";
+    EXPECT_EQ(std::memcmp(a.data(), b.data(), a.size() * sizeof(double)), 0) << lanes << " lanes";
+  }
 }
 
 // An expression outside the lane compiler's subset falls back to muparser (no program).

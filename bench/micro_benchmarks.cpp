@@ -103,9 +103,11 @@ void BM_ClosedLoopRunHcw(benchmark::State& state) {
 BENCHMARK(BM_ClosedLoopRunHcw)->Arg(0)->Arg(1);
 
 // One batch of 64 lanes (the pipeline's block, app::ModelRunner::kDefaultBlock)
-// through the lane kernels: items are runs.
+// through the lane kernels: items are runs. Argument 0 built-in, 1 expression
+// twin, 2 built-in with its whole-step kernel kept at AVX2 (no AVX-512).
 void BM_BatchRunHcw(benchmark::State& state) {
-  const bool expression = state.range(0) != 0;
+  const bool expression = state.range(0) == 1;
+  model::BatchPropagator::allow_avx512(state.range(0) != 2);
   const app::LoadedCase& loaded = tracking_case(expression);
   const auto& cl = *loaded.closed_loop;
   const model::BatchPropagator batch(cl, loaded.options);
@@ -121,8 +123,9 @@ void BM_BatchRunHcw(benchmark::State& state) {
   }
   state.SetItemsProcessed(state.iterations() * kLanes);
   state.SetLabel(std::string(expression ? "expression" : "built-in") + ", " + model::BatchPropagator::instruction_set());
+  model::BatchPropagator::allow_avx512(true);
 }
-BENCHMARK(BM_BatchRunHcw)->Arg(0)->Arg(1);
+BENCHMARK(BM_BatchRunHcw)->Arg(0)->Arg(1)->Arg(2);
 
 }  // namespace
 

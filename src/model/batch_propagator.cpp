@@ -31,6 +31,7 @@ namespace {
 struct BlockProgram {
   std::vector<lanes::BlockOp> ops;
   std::vector<double> constants;
+  std::vector<int> result_rows;  // per state
   int rows = 0;
 };
 
@@ -115,6 +116,14 @@ BlockProgram block_program(const std::vector<LaneExpression>& programs, int vari
       op.a = op.b = constant_row(*k);
       op.out = variables + i;
       ops.push_back(op);
+    }
+    // A right-hand side that only copies a variable (x' = vx) is read from that
+    // row, unless it is the stage state of a state j < i, which the stage
+    // combination (state by state) overwrites before it reads state i's derivative.
+    out.result_rows.push_back(variables + i);
+    if (ops.size() == 1 && ops[0].kind == BK::copy && ops[0].a < variables && !(ops[0].a >= 1 && ops[0].a - 1 < i)) {
+      out.result_rows.back() = ops[0].a;
+      ops.clear();
     }
     // Chains on one row stay in the accumulator; a value is stored unless the
     // next op overwrites its row from the accumulator without reading the row.
@@ -388,7 +397,7 @@ void BatchPropagator::run(const Perturbation* perturbations, int lanes, double* 
     step.n = n;
     step.m = m;
     step.n_params = n_params;
-    step.result_row = 1 + n + m + n_params;
+    step.result_rows = block.result_rows.data();
     step.rows = block.rows;
     step.ops = block.ops.data();
     step.op_count = block.ops.size();

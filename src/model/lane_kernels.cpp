@@ -196,7 +196,7 @@ void allow_avx512(bool on) {
 const char* active_target() {
 #if defined(__GNUC__) && defined(__x86_64__) && !defined(SIGMATUBE_NO_MULTIVERSIONING)
   __builtin_cpu_init();
-  if (avx512()) return "avx512f (whole-step kernels), avx2";
+  if (avx512()) return "avx512f (HCW whole-step kernel), avx2";
   return __builtin_cpu_supports("avx2") ? "avx2" : "x86-64 baseline";
 #else
   return "portable (no multiversioning)";
@@ -462,7 +462,6 @@ SIGMATUBE_INLINE void program_step_blocks(std::size_t L, double t, double h, con
     double* w = layout.block(work, k);
     double* state = w + kB;
     double* input = state + static_cast<std::size_t>(n) * kB;
-    double* result = w + static_cast<std::size_t>(p.result_row) * kB;
     double* xs = w + layout.xs * kB;
     double* acc = w + layout.sum * kB;
     const double* scale = w + layout.scale * kB;
@@ -475,7 +474,7 @@ SIGMATUBE_INLINE void program_step_blocks(std::size_t L, double t, double h, con
       // The stage combinations of integrate_rk4: y = x + (h/2 | h/2 | h)·k and
       // x + h/6·(((k1 + 2·k2) + 2·k3) + k4).
       for (int j = 0; j < n; ++j) {
-        const double* kr = result + j * kB;
+        const double* kr = w + static_cast<std::size_t>(p.result_rows[j]) * kB;
         double* sum = acc + j * kB;
         double* y = state + j * kB;
         double* x0 = xs + j * kB;

@@ -29,7 +29,7 @@
 namespace sigmatube::model::lanes {
 
 /// Name of the instruction set the lane kernels run with on this CPU
-/// ("avx512f (whole-step kernels), avx2", "avx2" or "x86-64 baseline").
+/// ("avx512f (HCW whole-step kernel), avx2", "avx2" or "x86-64 baseline").
 const char* active_target();
 /// The built-in HCW whole-step kernel also has an AVX-512 version (eight lanes
 /// per vector, no FMA), used where the CPU has AVX-512F unless switched off here
@@ -88,7 +88,8 @@ constexpr std::size_t kProgramBlock = 32;
 struct ProgramStep {
   int n = 0, m = 0;               // states, inputs (m ≤ 4)
   int n_params = 0;
-  int result_row = 0;             // first of the n result rows (= 1 + n + m + n_params)
+  const int* result_rows = nullptr;  // n: the row holding state i's derivative (its own
+                                     // row, or a variable row its program only copies)
   int rows = 0;                   // rows of the programs (variables, results, slots, constants)
   const BlockOp* ops = nullptr;   // all states' programs, state 0 first
   std::size_t op_count = 0;

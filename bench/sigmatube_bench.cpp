@@ -31,6 +31,7 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <cstring>
 #include <fstream>
 #include <iostream>
 #include <map>
@@ -430,6 +431,62 @@ void default_run(const std::string& label, const std::string& path) {
           fmt("%.3g", cpu[0]) + " / " + fmt("%.3g", cpu[2]) + " CPU-s", 3.0, true);
 }
 
+// ------------------------------------------------------------------ (h)
+// dopri5 model runs of the bundled demo, one thread: one at a time through
+// ClosedLoop::run (what the pipeline does) against lanes with per-lane step
+// control (model/lane_dopri5.h) in blocks of 64 and 16; the same bits.
+void dopri5_lanes_rate(long long runs) {
+  std::cout << "\n(h) dopri5 model runs, bundled demo, 1 thread  [load " << load_text() << "]\n";
+  const app::LoadedCase loaded = app::load_case(kSource + "/cases/inspection-approach/case.toml");
+  const auto& cl = *loaded.closed_loop;
+  const app::ModelRunner runner(loaded);
+  const int d = loaded.germ->dimension();
+  Eigen::MatrixXd xi(runs, d);
+  std::vector<double> point(static_cast<std::size_t>(d));
+  for (long long r = 0; r < runs; ++r) {
+    montecarlo::germ_point(loaded.germ->specs(), loaded.options.montecarlo.seed, r, point.data());
+    for (int j = 0; j < d; ++j) xi(r, j) = point[static_cast<std::size_t>(j)];
+  }
+  const std::size_t width = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
+  std::vector<double> scalar(width * static_cast<std::size_t>(runs)), lanes(scalar.size());
+  std::vector<std::uint8_t> ok(static_cast<std::size_t>(runs));
+  double c0 = thread_cpu();
+  for (long long r = 0; r < runs; ++r) {
+    const Eigen::RowVectorXd x = xi.row(r);
+    runner.run_one(x.data(), r, scalar.data() + static_cast<std::size_t>(r) * width);
+  }
+  const double cpu_scalar = thread_cpu() - c0;
+  double cpu_lanes[2] = {0, 0};
+  const std::size_t blocks[2] = {app::ModelRunner::kDefaultBlock, 16};
+  bool same = true;
+  const model::BatchPropagator batch(cl, loaded.options);
+  std::vector<model::Perturbation> perturbations(static_cast<std::size_t>(runs), cl.nominal());
+  for (long long r = 0; r < runs; ++r) {
+    const Eigen::RowVectorXd x = xi.row(r);
+    loaded.germ->apply(x.data(), perturbations[static_cast<std::size_t>(r)]);
+  }
+  for (int b = 0; b < 2; ++b) {
+    c0 = thread_cpu();
+    for (long long first = 0; first < runs; first += static_cast<long long>(blocks[b])) {
+      const int count = static_cast<int>(std::min<long long>(static_cast<long long>(blocks[b]), runs - first));
+      batch.run(perturbations.data() + first, count, lanes.data() + static_cast<std::size_t>(first) * width, width,
+                ok.data() + first);
+    }
+    cpu_lanes[b] = thread_cpu() - c0;
+    same = same && std::equal(scalar.begin(), scalar.end(), lanes.begin(),
+                              [](double a, double c) { return std::memcmp(&a, &c, sizeof a) == 0; });
+  }
+  const double rate_scalar = static_cast<double>(runs) / cpu_scalar;
+  std::cout << "  one at a time: " << runs << " runs, " << fmt("%.3g", cpu_scalar) << " CPU-s -> "
+            << fmt("%.4g", rate_scalar) << " runs/CPU-s\n";
+  for (int b = 0; b < 2; ++b)
+    std::cout << "  lanes, blocks of " << blocks[b] << ": " << fmt("%.3g", cpu_lanes[b]) << " CPU-s -> "
+              << fmt("%.4g", static_cast<double>(runs) / cpu_lanes[b]) << " runs/CPU-s\n";
+  std::cout << "  same bits as one at a time: " << (same ? "yes" : "NO") << "\n";
+  add_row("(h) dopri5 lanes / one at a time", cpu_scalar / cpu_lanes[0],
+          fmt("%.3g", cpu_scalar) + " / " + fmt("%.3g", cpu_lanes[0]) + " CPU-s", 1.0, true);
+}
+
 // ------------------------------------------------------------------ (d)
 void sampling_rate() {
   std::cout << "\n(d) surrogate sampling vs Eigen matrix multiply, one thread  [load " << load_text() << "]\n";
@@ -542,7 +599,7 @@ int main(int argc, char** argv) {
     if (arg == "--part" && i + 1 < argc) parts.push_back(argv[++i]);
   }
   // --part NAME (repeatable) runs only the named parts: memory, efficiency,
-  // throughput, sampling, default.
+  // throughput, sampling, dopri5, default.
   auto part = [&](const char* name) { return parts.empty() || std::find(parts.begin(), parts.end(), name) != parts.end(); };
   std::cout << "sigmatube benchmark suite (" << (quick ? "quick" : "full") << "); machine: " << sysconf(_SC_NPROCESSORS_ONLN)
             << " cores online; lane kernels: " << model::BatchPropagator::instruction_set() << "; load " << load_text() << "\n";
@@ -554,6 +611,7 @@ int main(int argc, char** argv) {
     }
     if (part("throughput")) throughput(quick ? 5000 : 100000);
     if (part("sampling")) sampling_rate();
+    if (part("dopri5")) dopri5_lanes_rate(quick ? 256 : 2048);
     if (part("default")) {
       default_run("demo (keep-out widened)", kDemoCase);
       default_run("bundled demo", kSource + "/cases/inspection-approach/case.toml");

@@ -11,6 +11,7 @@
 #include "sigmatube/core/error.h"
 #include "sigmatube/core/option_values.h"
 #include "sigmatube/model/controller.h"
+#include "sigmatube/model/grid_walk.h"
 #include "sigmatube/model/integrator.h"
 #include "sigmatube/model/plan.h"
 
@@ -142,10 +143,12 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
   Eigen::VectorXd x_ref(n), u_ff(m), u_cmd(m), u_app(m), x(n), derived(n_derived);
   const double* p = perturbation.parameters.data();
 
-  // Evaluates u_cmd and u_app at (t, state).
+  // Evaluates u_cmd and u_app at (t, state). The plan, gain and disturbance
+  // intervals are walked from the previous call's (model/grid_walk.h): same values.
+  std::size_t plan_hint = 0, gain_hint = 0, grid_hint = 0;
   auto inputs_at = [&](double t, const double* state) {
-    plan_->evaluate(t, x_ref.data(), u_ff.data());
-    controller_->command(t, state, x_ref.data(), u_ff.data(), u_cmd.data());
+    plan_->evaluate(t, plan_hint, x_ref.data(), u_ff.data());
+    controller_->command(t, gain_hint, state, x_ref.data(), u_ff.data(), u_cmd.data());
     for (int i = 0; i < m; ++i)
       u_app(i) = std::clamp(perturbation.input_scale(i) * u_cmd(i) + perturbation.input_bias(i), input_low_(i),
                             input_high_(i));
@@ -156,7 +159,7 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
     model_->rhs(t, state, u_app.data(), p, dxdt);
     if (disturbed) {
       // Piecewise linear between report times, held constant outside.
-      const GridSegment g = grid_segment(report_times_, t);
+      const GridSegment g = grid_segment(report_times_, t, grid_hint);
       for (int i = 0; i < n; ++i)
         dxdt[i] += (1.0 - g.w) * perturbation.disturbance(g.k, i) + g.w * perturbation.disturbance(g.k1, i);
     }
@@ -182,18 +185,28 @@ void ClosedLoop::run(const Perturbation& perturbation, Eigen::Ref<Eigen::MatrixX
   integrator.integrate(rhs, report_times_, x.data(), observe, sample, &model_->state_names());
 }
 
-GridSegment grid_segment(const std::vector<double>& times, double t) {
+namespace {
+GridSegment segment_of(const std::vector<double>& times, double t, std::size_t* hint) {
   const auto T = static_cast<Eigen::Index>(times.size());
   GridSegment g;
   if (t >= times.back()) {
     g.k = T - 1;
   } else if (t > times.front()) {
-    g.k = static_cast<Eigen::Index>(std::upper_bound(times.begin(), times.end(), t) - times.begin()) - 1;
-    g.w = (t - times[static_cast<std::size_t>(g.k)]) /
-          (times[static_cast<std::size_t>(g.k) + 1] - times[static_cast<std::size_t>(g.k)]);
+    const std::size_t k = hint ? walk_to_interval(times, t, times.size() - 2, *hint)
+                               : static_cast<std::size_t>(std::upper_bound(times.begin(), times.end(), t) - times.begin()) - 1;
+    if (hint) *hint = k;
+    g.k = static_cast<Eigen::Index>(k);
+    g.w = (t - times[k]) / (times[k + 1] - times[k]);
   }
   g.k1 = std::min<Eigen::Index>(g.k + 1, T - 1);
   return g;
+}
+}  // namespace
+
+GridSegment grid_segment(const std::vector<double>& times, double t) { return segment_of(times, t, nullptr); }
+
+GridSegment grid_segment(const std::vector<double>& times, double t, std::size_t& hint) {
+  return segment_of(times, t, &hint);
 }
 
 }  // namespace sigmatube::model

@@ -7,6 +7,7 @@
 #include <stdexcept>
 
 #include "sigmatube/core/error.h"
+#include "sigmatube/model/grid_walk.h"
 #include "sigmatube/model/lqr.h"
 
 namespace sigmatube::model {
@@ -46,20 +47,26 @@ Eigen::MatrixXd Controller::gain(double t) const {
   return K;
 }
 
-void Controller::command(double t, const double* x, const double* x_ref, const double* u_ff, double* u_cmd) const {
-  for (int i = 0; i < m_; ++i) u_cmd[i] = u_ff[i];
-  if (open_loop_) return;
-  const std::size_t stride = static_cast<std::size_t>(m_) * static_cast<std::size_t>(n_);
-  std::size_t k = 0;
-  double w = 0.0;  // K = (1 − w) K_k + w K_{k+1}
+void Controller::gain_interval(double t, std::size_t* hint, std::size_t& k, double& w) const {
+  k = 0;
+  w = 0.0;
   if (times_.size() > 1) {
     if (t >= times_.back()) {
       k = times_.size() - 1;
     } else if (t > times_.front()) {
-      k = static_cast<std::size_t>(std::upper_bound(times_.begin(), times_.end(), t) - times_.begin()) - 1;
+      k = hint ? walk_to_interval(times_, t, times_.size() - 2, *hint)
+               : static_cast<std::size_t>(std::upper_bound(times_.begin(), times_.end(), t) - times_.begin()) - 1;
       w = (t - times_[k]) / (times_[k + 1] - times_[k]);
     }
+    if (hint) *hint = k;
   }
+}
+
+void Controller::apply(std::size_t k, double w, const double* x, const double* x_ref, const double* u_ff,
+                       double* u_cmd) const {
+  for (int i = 0; i < m_; ++i) u_cmd[i] = u_ff[i];
+  if (open_loop_) return;
+  const std::size_t stride = static_cast<std::size_t>(m_) * static_cast<std::size_t>(n_);
   const double* K0 = gains_.data() + k * stride;
   const double* K1 = w > 0.0 ? K0 + stride : K0;
   for (int j = 0; j < n_; ++j) {
@@ -70,6 +77,21 @@ void Controller::command(double t, const double* x, const double* x_ref, const d
       u_cmd[i] -= ((1.0 - w) * K0[at] + w * K1[at]) * e;
     }
   }
+}
+
+void Controller::command(double t, const double* x, const double* x_ref, const double* u_ff, double* u_cmd) const {
+  std::size_t k = 0;
+  double w = 0.0;
+  if (!open_loop_) gain_interval(t, nullptr, k, w);
+  apply(k, w, x, x_ref, u_ff, u_cmd);
+}
+
+void Controller::command(double t, std::size_t& hint, const double* x, const double* x_ref, const double* u_ff,
+                         double* u_cmd) const {
+  std::size_t k = 0;
+  double w = 0.0;
+  if (!open_loop_) gain_interval(t, &hint, k, w);
+  apply(k, w, x, x_ref, u_ff, u_cmd);
 }
 
 namespace {

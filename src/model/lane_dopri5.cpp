@@ -159,32 +159,26 @@ struct LaneLoop {
   const Eigen::VectorXd& high;
   int n, m, n_derived, n_out;
   mutable std::vector<double> x_ref, u_ff, u_cmd, u_app, derived;
+  // Each lane's last plan and gain intervals (walked from, not searched).
+  mutable std::vector<std::size_t> plan_hint, gain_hint;
 
-  LaneLoop(const ClosedLoop& c, const Eigen::VectorXd& lo, const Eigen::VectorXd& hi)
+  LaneLoop(const ClosedLoop& c, const Eigen::VectorXd& lo, const Eigen::VectorXd& hi, std::size_t lanes)
       : cl(c), low(lo), high(hi), n(c.model().state_count()), m(c.model().input_count()),
         n_derived(c.model().derived_output_count()), n_out(c.output_count()),
         x_ref(static_cast<std::size_t>(n)), u_ff(static_cast<std::size_t>(m)), u_cmd(static_cast<std::size_t>(m)),
-        u_app(static_cast<std::size_t>(m)), derived(static_cast<std::size_t>(n_derived)) {}
+        u_app(static_cast<std::size_t>(m)), derived(static_cast<std::size_t>(n_derived)), plan_hint(lanes, 0),
+        gain_hint(lanes, 0) {}
 
-  void inputs_at(const Perturbation& p, double t, const double* state) const {
-    cl.plan().evaluate(t, x_ref.data(), u_ff.data());
-    cl.controller().command(t, state, x_ref.data(), u_ff.data(), u_cmd.data());
+  void inputs_at(std::size_t l, const Perturbation& p, double t, const double* state) const {
+    cl.plan().evaluate(t, plan_hint[l], x_ref.data(), u_ff.data());
+    cl.controller().command(t, gain_hint[l], state, x_ref.data(), u_ff.data(), u_cmd.data());
     for (int i = 0; i < m; ++i)
       u_app[static_cast<std::size_t>(i)] =
           std::clamp(p.input_scale(i) * u_cmd[static_cast<std::size_t>(i)] + p.input_bias(i), low(i), high(i));
   }
 
-  void rhs(const Perturbation& p, double t, const double* state, double* dxdt) const {
-    inputs_at(p, t, state);
-    cl.model().rhs(t, state, u_app.data(), p.parameters.data(), dxdt);
-    if (p.disturbance.rows() > 0) {
-      const GridSegment g = grid_segment(cl.report_times(), t);
-      for (int i = 0; i < n; ++i) dxdt[i] += (1.0 - g.w) * p.disturbance(g.k, i) + g.w * p.disturbance(g.k1, i);
-    }
-  }
-
-  void observe(const Perturbation& p, double t, const double* state, double* row) const {
-    inputs_at(p, t, state);
+  void observe(std::size_t l, const Perturbation& p, double t, const double* state, double* row) const {
+    inputs_at(l, p, t, state);
     for (int i = 0; i < n; ++i) row[i] = state[i];
     if (n_derived > 0) {
       cl.model().derived_outputs(t, state, u_app.data(), p.parameters.data(), derived.data());
@@ -212,7 +206,7 @@ void dopri5_lanes(const ClosedLoop& cl, const casefile::SimulationOptions& simul
   const int n = model.state_count(), m = model.input_count();
   const std::vector<double>& times = cl.report_times();
   const auto T = static_cast<Eigen::Index>(times.size());
-  const LaneLoop loop(cl, input_low, input_high);
+  const LaneLoop loop(cl, input_low, input_high, static_cast<std::size_t>(lanes));
   if (row_stride < static_cast<std::size_t>(T) * static_cast<std::size_t>(loop.n_out))
     throw std::logic_error("dopri5_lanes: row stride below T·n_out");
   const std::size_t L = static_cast<std::size_t>(lanes);
@@ -237,12 +231,24 @@ void dopri5_lanes(const ClosedLoop& cl, const casefile::SimulationOptions& simul
   std::vector<std::size_t> next(L, 1);
   std::vector<long long> steps(L, 0), rejects(L, 0);
 
-  // f at lane l's own time t_at[l] for the active lanes: reads [n][L] state, writes [n][L] derivative.
+  // ClosedLoop::run's right-hand side at lane l's own time t_at[l], for the
+  // active lanes, lane by lane with the one-run path's functions (a version with
+  // the feedback law as a lane loop over per-lane gains measured slower: the
+  // gains must be blended and scattered per lane first). Reads [n][L] state,
+  // writes [n][L] derivative.
+  std::vector<std::size_t> grid_hint(L, 0);
   auto f = [&](const double* t_at, const double* state, double* dxdt) {
     for (std::size_t l = 0; l < L; ++l) {
       if (!active[l]) continue;
+      const Perturbation& p = perturbations[l];
       for (int i = 0; i < n; ++i) lane_x[static_cast<std::size_t>(i)] = state[i * L + l];
-      loop.rhs(perturbations[l], t_at[l], lane_x.data(), lane_dx.data());
+      loop.inputs_at(l, p, t_at[l], lane_x.data());
+      model.rhs(t_at[l], lane_x.data(), loop.u_app.data(), p.parameters.data(), lane_dx.data());
+      if (p.disturbance.rows() > 0) {
+        const GridSegment g = grid_segment(times, t_at[l], grid_hint[l]);
+        for (int i = 0; i < n; ++i)
+          lane_dx[static_cast<std::size_t>(i)] += (1.0 - g.w) * p.disturbance(g.k, i) + g.w * p.disturbance(g.k1, i);
+      }
       for (int i = 0; i < n; ++i) dxdt[i * L + l] = lane_dx[static_cast<std::size_t>(i)];
     }
   };
@@ -263,7 +269,7 @@ void dopri5_lanes(const ClosedLoop& cl, const casefile::SimulationOptions& simul
     for (int i = 0; i < n; ++i) y[i * L + l] = x(i);
     ok[l] = within_bound(n, x.data()) ? 1 : 0;
     active[l] = ok[l] && T > 1;
-    if (ok[l]) loop.observe(perturbations[l], t0, x.data(), rows + l * row_stride);
+    if (ok[l]) loop.observe(l, perturbations[l], t0, x.data(), rows + l * row_stride);
   }
   if (T == 1) return;
 
@@ -375,7 +381,7 @@ void dopri5_lanes(const ClosedLoop& cl, const casefile::SimulationOptions& simul
         while (k < times.size() && times[k] <= tnew) {
           double* row = rows + l * row_stride + k * static_cast<std::size_t>(loop.n_out);
           if (times[k] == tnew) {
-            loop.observe(perturbations[l], tnew, lane_state(ynew, l), row);
+            loop.observe(l, perturbations[l], tnew, lane_state(ynew, l), row);
           } else {
             if (!dense_ready) {
               for (int i = 0; i < n; ++i) {
@@ -395,7 +401,7 @@ void dopri5_lanes(const ClosedLoop& cl, const casefile::SimulationOptions& simul
               dense[static_cast<std::size_t>(i)] =
                   ri[0] + theta * (ri[1] + theta1 * (ri[2] + theta * (ri[3] + theta1 * ri[4])));
             }
-            loop.observe(perturbations[l], times[k], dense.data(), row);
+            loop.observe(l, perturbations[l], times[k], dense.data(), row);
           }
           ++k;
         }

@@ -9,6 +9,7 @@
 #include <sstream>
 
 #include "sigmatube/casefile/nearest_name.h"
+#include "sigmatube/model/grid_walk.h"
 
 namespace sigmatube::model {
 namespace {
@@ -184,6 +185,8 @@ Plan::Plan(std::vector<double> times, Eigen::MatrixXd states, Eigen::MatrixXd in
 }
 
 void Plan::prepare() {
+  state_rows_ = states_;
+  input_rows_ = inputs_;
   if (interpolation_ != casefile::Interpolation::cubic) return;
   auto second = [&](const Eigen::MatrixXd& values) {
     Eigen::MatrixXd M(values.rows(), values.cols());
@@ -192,9 +195,11 @@ void Plan::prepare() {
   };
   state_second_ = second(states_);
   input_second_ = second(inputs_);
+  state_second_rows_ = state_second_;
+  input_second_rows_ = input_second_;
 }
 
-void Plan::evaluate_columns(const Eigen::MatrixXd& values, const Eigen::MatrixXd& second, std::size_t k, double t,
+void Plan::evaluate_columns(const KnotRows& values, const KnotRows& second, std::size_t k, double t,
                             double* out) const {
   const auto i = static_cast<Eigen::Index>(k);
   const double h = times_[k + 1] - times_[k];
@@ -216,8 +221,18 @@ void Plan::evaluate(double t, double* reference_state, double* feedforward) cons
   auto it = std::upper_bound(times_.begin(), times_.end(), clamped);
   std::size_t k = it == times_.begin() ? 0 : static_cast<std::size_t>(it - times_.begin()) - 1;
   if (k + 1 >= times_.size()) k = times_.size() - 2;
-  if (reference_state) evaluate_columns(states_, state_second_, k, clamped, reference_state);
-  if (feedforward) evaluate_columns(inputs_, input_second_, k, clamped, feedforward);
+  if (reference_state) evaluate_columns(state_rows_, state_second_rows_, k, clamped, reference_state);
+  if (feedforward) evaluate_columns(input_rows_, input_second_rows_, k, clamped, feedforward);
+}
+
+void Plan::evaluate(double t, std::size_t& hint, double* reference_state, double* feedforward) const {
+  const double clamped = std::clamp(t, times_.front(), times_.back());
+  const std::size_t last = times_.size() - 2;
+  // As evaluate(): upper_bound finds no knot above a NaN, hence the last interval.
+  const std::size_t k = std::isnan(clamped) ? last : walk_to_interval(times_, clamped, last, hint);
+  hint = k;
+  if (reference_state) evaluate_columns(state_rows_, state_second_rows_, k, clamped, reference_state);
+  if (feedforward) evaluate_columns(input_rows_, input_second_rows_, k, clamped, feedforward);
 }
 
 Eigen::VectorXd Plan::reference_state(double t) const {

@@ -159,6 +159,30 @@ TEST(BatchPropagator, FusedLaneProgramStepFlagsDivergedLanes) {
   EXPECT_EQ(ok_a[0], 1);
 }
 
+// Diverged lanes of the built-in HCW whole-step kernel get the same ok flags as
+// with check_lanes after each stage-by-stage step.
+TEST(BatchPropagator, FusedHcwStepFlagsDivergedLanes) {
+  const std::string path = kSource + "/bench/cases/hcw-tracking/case.toml";
+  const app::LoadedCase loaded = app::load_case(path);
+  const auto& cl = *loaded.closed_loop;
+  model::BatchPropagator fused(cl, loaded.options), stagewise(cl, loaded.options);
+  stagewise.use_fused_steps(false);
+  for (const int lanes : {11, 64}) {
+    std::vector<model::Perturbation> perturbations = perturbations_for(loaded, lanes);
+    perturbations[2].initial_offset[1] = 2e12;  // beyond ±1e12 from the start
+    perturbations[9].initial_offset[4] = 1e11;  // within at first, y passes 1e12 after ~10 s
+    const std::size_t width = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
+    std::vector<double> a(width * static_cast<std::size_t>(lanes)), b(a.size());
+    std::vector<std::uint8_t> ok_a(static_cast<std::size_t>(lanes)), ok_b(ok_a.size());
+    fused.run(perturbations.data(), lanes, a.data(), width, ok_a.data());
+    stagewise.run(perturbations.data(), lanes, b.data(), width, ok_b.data());
+    EXPECT_EQ(ok_a, ok_b) << lanes << " lanes";
+    EXPECT_EQ(ok_a[2], 0);
+    EXPECT_EQ(ok_a[9], 0);
+    EXPECT_EQ(ok_a[0], 1);
+  }
+}
+
 // The built-in HCW whole-step kernel against its stage-by-stage loops.
 TEST(BatchPropagator, FusedHcwStepMatchesStagewiseBitwise) {
   expect_fused_matches_stagewise(kSource + "/bench/cases/hcw-tracking/case.toml", {1, 6, 64});

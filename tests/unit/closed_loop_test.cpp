@@ -13,6 +13,7 @@
 #include "sigmatube/core/error.h"
 #include "sigmatube/model/builtin_models.h"
 #include "sigmatube/model/model_factory.h"
+#include "clohessy_wiltshire.h"
 
 namespace sigmatube::model {
 namespace {
@@ -30,20 +31,6 @@ Eigen::MatrixXd run(const ClosedLoop& loop, const Perturbation& p, long long sam
   Eigen::MatrixXd out(static_cast<Eigen::Index>(loop.report_times().size()), loop.output_count());
   loop.run(p, out, sample);
   return out;
-}
-
-// Clohessy & Wiltshire (1960) closed-form state transition matrix of
-// ẍ = 3n²x + 2nẏ, ÿ = −2nẋ, z̈ = −n²z, state (x, y, z, vx, vy, vz), c = cos nt, s = sin nt.
-Eigen::Matrix<double, 6, 6> clohessy_wiltshire_transition(double n, double t) {
-  const double c = std::cos(n * t), s = std::sin(n * t), nt = n * t;
-  Eigen::Matrix<double, 6, 6> phi;
-  phi << 4 - 3 * c, 0, 0, s / n, 2 * (1 - c) / n, 0,
-         6 * (s - nt), 1, 0, -2 * (1 - c) / n, (4 * s - 3 * nt) / n, 0,
-         0, 0, c, 0, 0, s / n,
-         3 * n * s, 0, 0, c, 2 * s, 0,
-         -6 * n * (1 - c), 0, 0, -2 * s, 4 * c - 3, 0,
-         0, 0, -n * s, 0, 0, c;
-  return phi;
 }
 
 TEST(ClosedLoop, HillClohessyWiltshireMatchesClosedFormTransitionOverOneOrbit) {

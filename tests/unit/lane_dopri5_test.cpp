@@ -8,6 +8,8 @@
 
 #include <gtest/gtest.h>
 
+#include <algorithm>
+#include <array>
 #include <cmath>
 #include <cstring>
 #include <fstream>
@@ -20,9 +22,11 @@
 #include "sigmatube/app/model_runs.h"
 #include "sigmatube/core/counter_rng.h"
 #include "sigmatube/core/error.h"
+#include "sigmatube/core/parallel.h"
 #include "sigmatube/model/batch_propagator.h"
 #include "sigmatube/model/builtin_models.h"
 #include "sigmatube/model/model_factory.h"
+#include "clohessy_wiltshire.h"
 
 namespace sigmatube {
 namespace {
@@ -200,20 +204,6 @@ TEST(LaneDopri5, DivergingLanesAreFlaggedAsTheOneRunPathFlagsThem) {
   }
 }
 
-// Clohessy & Wiltshire (1960) closed-form state transition of free drift,
-// ẍ = 3n²x + 2nẏ, ÿ = −2nẋ, z̈ = −n²z, state (x, y, z, vx, vy, vz).
-Eigen::Matrix<double, 6, 6> clohessy_wiltshire_transition(double n, double t) {
-  const double c = std::cos(n * t), s = std::sin(n * t), nt = n * t;
-  Eigen::Matrix<double, 6, 6> phi;
-  phi << 4 - 3 * c, 0, 0, s / n, 2 * (1 - c) / n, 0,
-         6 * (s - nt), 1, 0, -2 * (1 - c) / n, (4 * s - 3 * nt) / n, 0,
-         0, 0, c, 0, 0, s / n,
-         3 * n * s, 0, 0, c, 2 * s, 0,
-         -6 * n * (1 - c), 0, 0, -2 * s, 4 * c - 3, 0,
-         0, 0, -n * s, 0, 0, c;
-  return phi;
-}
-
 TEST(LaneDopri5, FreeDriftMatchesClohessyWiltshireClosedForm) {
   const double n = model::HillClohessyWiltshire::kDefaultMeanMotion;
   const double period = 2.0 * std::numbers::pi / n;
@@ -256,36 +246,50 @@ TEST(LaneDopri5, FreeDriftMatchesClohessyWiltshireClosedForm) {
   EXPECT_LT(worst, kRelativeTolerance);
 }
 
-// The pipeline's runner: 1 and 2 threads give the same bits, and each equals its run alone.
-TEST(LaneDopri5, ModelRunnerSameBitsOnOneAndTwoThreads) {
+// Lanes assigned by run index, blocks spread over 1 and 2 threads: the same bits,
+// and the same as the pipeline's runner (blocks of 16 over 2 threads).
+TEST(LaneDopri5, SameBitsOnOneAndTwoThreadsAndAsThePipelinesRunner) {
   const app::LoadedCase loaded = app::load_case(kDemo);
   const auto& cl = *loaded.closed_loop;
-  const app::ModelRunner runner(loaded);
-  ASSERT_TRUE(runner.batched());
-  const int count = 37, d = loaded.germ->dimension();
-  const CounterRng rng(5);
-  Eigen::MatrixXd z(count, d), xi(count, d);
-  for (int i = 0; i < count; ++i)
-    for (int j = 0; j < d; ++j) z(i, j) = rng.normal(static_cast<std::uint64_t>(i), static_cast<std::uint64_t>(j));
-  for (int i = 0; i < count; ++i) {
-    const Eigen::RowVectorXd zi = z.row(i);
-    Eigen::RowVectorXd xr(d);
-    loaded.germ->from_standard_normal(zi.data(), xr.data());
-    xi.row(i) = xr;
-  }
+  const model::BatchPropagator batch(cl, loaded.options);
+  const int count = 37, block = 16;
+  const auto perturbations = germ_perturbations(loaded, count, 1.0);
   const std::size_t width = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
-  std::vector<double> one(width * count), two(width * count), alone(width);
-  std::vector<std::uint8_t> ok1(count), ok2(count);
-  runner.run(xi, 0, 1, 16, one.data(), ok1.data(), false);
-  runner.run(xi, 0, 2, 16, two.data(), ok2.data(), false);
+  auto run_blocks = [&](int threads, std::vector<double>& rows, std::vector<std::uint8_t>& ok) {
+    rows.assign(width * count, 0.0);
+    ok.assign(count, 0);
+    const std::size_t blocks = (count + block - 1) / block;
+    parallel_for(blocks, threads, [&](std::size_t b) {
+      const int first = static_cast<int>(b) * block, lanes = std::min(block, count - first);
+      batch.run(perturbations.data() + first, lanes, rows.data() + static_cast<std::size_t>(first) * width, width,
+                ok.data() + first);
+    });
+  };
+  std::vector<double> one, two;
+  std::vector<std::uint8_t> ok1, ok2;
+  run_blocks(1, one, ok1);
+  run_blocks(2, two, ok2);
   EXPECT_EQ(std::memcmp(one.data(), two.data(), one.size() * sizeof(double)), 0);
   EXPECT_EQ(ok1, ok2);
-  for (int i = 0; i < count; i += 6) {
-    const Eigen::RowVectorXd row = xi.row(i);
-    runner.run_one(row.data(), i, alone.data());
-    EXPECT_EQ(std::memcmp(alone.data(), one.data() + static_cast<std::size_t>(i) * width, width * sizeof(double)), 0)
-        << "run " << i;
+  EXPECT_EQ(std::count(ok1.begin(), ok1.end(), 1), count);
+
+  // ModelRunner at the same germ points.
+  const app::ModelRunner runner(loaded);
+  EXPECT_TRUE(runner.batched());
+  const int d = loaded.germ->dimension();
+  const CounterRng rng(11);
+  Eigen::MatrixXd xi(count, d);
+  std::vector<double> z(static_cast<std::size_t>(d)), x(static_cast<std::size_t>(d));
+  for (int l = 0; l < count; ++l) {
+    for (int j = 0; j < d; ++j)
+      z[static_cast<std::size_t>(j)] = rng.normal(static_cast<std::uint64_t>(l), static_cast<std::uint64_t>(j));
+    loaded.germ->from_standard_normal(z.data(), x.data());
+    for (int j = 0; j < d; ++j) xi(l, j) = x[static_cast<std::size_t>(j)];
   }
+  std::vector<double> runner_rows(width * count);
+  std::vector<std::uint8_t> runner_ok(count);
+  runner.run(xi, 0, 2, 16, runner_rows.data(), runner_ok.data(), false);
+  EXPECT_EQ(std::memcmp(runner_rows.data(), one.data(), one.size() * sizeof(double)), 0);
 }
 
 }  // namespace

@@ -41,6 +41,8 @@ struct GridSegment {
   double w = 0.0;
 };
 GridSegment grid_segment(const std::vector<double>& times, double t);
+/// The same, walking from hint (the previous interval of this caller; model/grid_walk.h).
+GridSegment grid_segment(const std::vector<double>& times, double t, std::size_t& hint);
 
 class Plan;        // model/plan.h
 class Controller;  // model/controller.h

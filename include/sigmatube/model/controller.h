@@ -33,8 +33,17 @@ class Controller {
 
   /// u_cmd = u_ff − K(t)(x − x_ref). Does not allocate; thread-safe.
   void command(double t, const double* x, const double* x_ref, const double* u_ff, double* u_cmd) const;
+  /// command() with the gain-grid interval searched from `hint` (this caller's
+  /// last interval, start with 0; updated; model/grid_walk.h). The same values,
+  /// bit for bit.
+  void command(double t, std::size_t& hint, const double* x, const double* x_ref, const double* u_ff,
+               double* u_cmd) const;
 
  private:
+  // Gain interval k and weight w at t (K = (1 − w) K_k + w K_{k+1}); from hint when given.
+  void gain_interval(double t, std::size_t* hint, std::size_t& k, double& w) const;
+  // u_cmd = u_ff − K e, K = (1 − w) K_k + w K_{k+1}.
+  void apply(std::size_t k, double w, const double* x, const double* x_ref, const double* u_ff, double* u_cmd) const;
   int n_ = 0, m_ = 0;
   bool open_loop_ = true;
   std::vector<double> times_;

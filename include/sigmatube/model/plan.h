@@ -47,17 +47,24 @@ class Plan {
 
   /// x_ref(t) and u_ff(t); either pointer may be null. Does not allocate.
   void evaluate(double t, double* reference_state, double* feedforward) const;
+  /// evaluate() with the knot interval searched from `hint` (this caller's last
+  /// interval, start with 0; updated): O(1) for times that move a little between
+  /// calls (model/grid_walk.h). The same values, bit for bit.
+  void evaluate(double t, std::size_t& hint, double* reference_state, double* feedforward) const;
   Eigen::VectorXd reference_state(double t) const;
   Eigen::VectorXd feedforward(double t) const;
 
  private:
   void prepare();
-  void evaluate_columns(const Eigen::MatrixXd& values, const Eigen::MatrixXd& second, std::size_t k,
-                        double t, double* out) const;
+  using KnotRows = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
+  void evaluate_columns(const KnotRows& values, const KnotRows& second, std::size_t k, double t, double* out) const;
 
   std::vector<double> times_;
   Eigen::MatrixXd states_, inputs_;                 // [knots, columns]
   Eigen::MatrixXd state_second_, input_second_;     // spline second derivatives (cubic only)
+  // The same values knot by knot (row-major), so that one evaluation reads two
+  // adjacent rows instead of one cache line per column.
+  KnotRows state_rows_, input_rows_, state_second_rows_, input_second_rows_;
   casefile::Interpolation interpolation_ = casefile::Interpolation::linear;
 };
 

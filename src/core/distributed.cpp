@@ -113,6 +113,8 @@ std::pair<std::size_t, std::size_t> rank_block(std::size_t count, int rank, int 
   return {at(rank), at(rank + 1)};
 }
 
+namespace {
+
 #ifdef SIGMATUBE_WITH_MPI
 // Ranks agree on the lowest failing job of [0, count) (error_at = count: none
 // here); its owner tells everybody what failed, and every rank throws it.
@@ -140,6 +142,47 @@ void rethrow_lowest_error(std::size_t count, std::size_t error_at, const std::ex
 }
 #endif
 
+// The exception of the lowest-numbered failing job of this rank's block (jobs
+// run on several threads), and what every rank does with it.
+class LowestError {
+ public:
+  explicit LowestError(std::size_t none) : count_(none), at_(none) {}
+  template <class Job>
+  void guard(std::size_t index, const Job& job) {
+    try {
+      job();
+    } catch (...) {
+      std::lock_guard<std::mutex> lock(mutex_);
+      if (index < at_) {
+        at_ = index;
+        error_ = std::current_exception();
+      }
+    }
+  }
+  /// With one rank (or without MPI): rethrows the error, else returns true (done).
+  /// With several: all ranks agree on the lowest failing job and throw it, or
+  /// return false to go on with the exchange.
+  bool settle(int size) const {
+#ifdef SIGMATUBE_WITH_MPI
+    if (size > 1) {
+      rethrow_lowest_error(count_, at_, error_);
+      return false;
+    }
+#else
+    (void)size;
+#endif
+    if (error_) std::rethrow_exception(error_);
+    return true;
+  }
+
+ private:
+  std::mutex mutex_;
+  std::size_t count_, at_;
+  std::exception_ptr error_;
+};
+
+}  // namespace
+
 void run_distributed_rows(std::size_t count, std::size_t width, std::size_t chunk, int threads,
                           const RowBlockFill& fill, double* all) {
   if (count == 0) return;
@@ -148,27 +191,12 @@ void run_distributed_rows(std::size_t count, std::size_t width, std::size_t chun
   const auto [begin, end] = rank_block(count, rank, size);
 
   // Local block, chunked; the lowest failing chunk's exception is kept.
-  std::mutex mutex;
-  std::size_t error_at = count;
-  std::exception_ptr error;
+  LowestError failure(count);
   parallel_for_chunks(end - begin, std::max<std::size_t>(chunk, 1), threads, [&](std::size_t b, std::size_t e) {
-    try {
-      fill(begin + b, begin + e, all + (begin + b) * width);
-    } catch (...) {
-      std::lock_guard<std::mutex> lock(mutex);
-      if (begin + b < error_at) {
-        error_at = begin + b;
-        error = std::current_exception();
-      }
-    }
+    failure.guard(begin + b, [&] { fill(begin + b, begin + e, all + (begin + b) * width); });
   });
-
-  if (size == 1) {
-    if (error) std::rethrow_exception(error);
-    return;
-  }
+  if (failure.settle(size)) return;
 #ifdef SIGMATUBE_WITH_MPI
-  rethrow_lowest_error(count, error_at, error);
   std::vector<int> counts(static_cast<std::size_t>(size)), offsets(static_cast<std::size_t>(size));
   for (int r = 0; r < size; ++r) {
     const auto [b, e] = rank_block(count, r, size);
@@ -178,8 +206,6 @@ void run_distributed_rows(std::size_t count, std::size_t width, std::size_t chun
     offsets[static_cast<std::size_t>(r)] = static_cast<int>(b * width);
   }
   MPI_Allgatherv(MPI_IN_PLACE, 0, MPI_DATATYPE_NULL, all, counts.data(), offsets.data(), MPI_DOUBLE, MPI_COMM_WORLD);
-#else
-  if (error) std::rethrow_exception(error);
 #endif
 }
 
@@ -189,26 +215,10 @@ void run_distributed_items(std::size_t count, int threads, const ItemCompute& co
   if (!compute || !pack || !unpack) throw std::logic_error("run_distributed_items: bad arguments");
   const int rank = process_rank(), size = process_count();
   const auto [begin, end] = rank_block(count, rank, size);
-  std::mutex mutex;
-  std::size_t error_at = count;
-  std::exception_ptr error;
-  parallel_for(end - begin, threads, [&](std::size_t i) {
-    try {
-      compute(begin + i);
-    } catch (...) {
-      std::lock_guard<std::mutex> lock(mutex);
-      if (begin + i < error_at) {
-        error_at = begin + i;
-        error = std::current_exception();
-      }
-    }
-  });
-  if (size == 1) {
-    if (error) std::rethrow_exception(error);
-    return;
-  }
+  LowestError failure(count);
+  parallel_for(end - begin, threads, [&](std::size_t i) { failure.guard(begin + i, [&] { compute(begin + i); }); });
+  if (failure.settle(size)) return;
 #ifdef SIGMATUBE_WITH_MPI
-  rethrow_lowest_error(count, error_at, error);
   // Own items packed back to back; first every item's length, then the data.
   std::vector<double> own;
   std::vector<long long> own_sizes;
@@ -240,8 +250,6 @@ void run_distributed_items(std::size_t count, int threads, const ItemCompute& co
                  MPI_DOUBLE, MPI_COMM_WORLD);
   for (std::size_t i = 0; i < count; ++i)
     if (i < begin || i >= end) unpack(i, all.data() + item_offset[i], item_offset[i + 1] - item_offset[i]);
-#else
-  if (error) std::rethrow_exception(error);
 #endif
 }
 

@@ -1,6 +1,8 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/montecarlo/rare_events.h"
 
+#include <limits>
+
 #include "sigmatube/constraints/surrogate_sampling.h"
 #include "sigmatube/constraints/violation_statistics.h"
 #include "sigmatube/core/counter_rng.h"
@@ -24,12 +26,28 @@ RareEventEstimate rare_event_estimate(const germ::Germ& germ, const expansion::S
   const int d = germ.dimension();
   const int n_out = surrogate.n_outputs;
   const std::vector<int> columns = constraints::constraint_columns({constraint}, surrogate.n_times, n_out);
-  // Path-minimum clearance of the surrogate at standard-normal points z (rows).
+  // The constraint's outputs: columns holds t·n_out + o for them, time by time.
+  const std::size_t n_used = columns.size() / static_cast<std::size_t>(surrogate.n_times);
+  // Path-minimum clearance of the surrogate at standard-normal points z (rows), as
+  // ViolationStatistics::path_minimum computes it on the full [N, T·n_out] outputs,
+  // but with one [N, n_out] block per report time holding only the constraint's
+  // outputs (the others stay zero, as surrogate_outputs leaves them): the screens
+  // never fill a full-width matrix (20 000 × T·n_out doubles).
   const auto path_minimum = [&](const Eigen::MatrixXd& z) {
-    Eigen::MatrixXd Y;
-    expansion::surrogate_outputs(surrogate, germ::germ_points(germ, z), columns, Y);
-    Eigen::VectorXd minimum(z.rows());
-    constraints::ViolationStatistics::path_minimum(constraint, times, n_out, Y, minimum);
+    Eigen::MatrixXd values;
+    surrogate.evaluate(germ::germ_points(germ, z), values, columns);
+    Eigen::MatrixXd block = Eigen::MatrixXd::Zero(z.rows(), n_out);
+    Eigen::VectorXd minimum = Eigen::VectorXd::Constant(z.rows(), std::numeric_limits<double>::infinity());
+    Eigen::VectorXd c(z.rows());
+    for (Eigen::Index t = 0; t < times.size(); ++t) {
+      if (!constraint.in_window(times[t])) continue;
+      for (std::size_t j = 0; j < n_used; ++j) {
+        const std::size_t k = static_cast<std::size_t>(t) * n_used + j;
+        block.col(columns[k] % n_out) = values.col(static_cast<Eigen::Index>(k));
+      }
+      constraint.clearance(block, times[t], c);
+      minimum = minimum.cwiseMin(c);
+    }
     return minimum;
   };
   const CounterRng rng(options.seed ^ kScreeningStream);

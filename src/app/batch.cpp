@@ -253,10 +253,11 @@ int run_batch(const std::string& suite_path, const BatchOptions& options) {
                 << suite.cases[i].file << ")\n"
                 << std::flush;
     CaseOutcome outcome = run_one(suite, i, options);
-    if (!outcome.ran && process_rank() == 0)
-      std::cerr << "sigmatube: case " << outcome.name << ": " << outcome.error_kind << ": " << outcome.error_message
-                << '\n';
-    else if (!options.quiet)
+    if (!outcome.ran) {
+      if (process_rank() == 0)
+        std::cerr << "sigmatube: case " << outcome.name << ": " << outcome.error_kind << ": " << outcome.error_message
+                  << '\n';
+    } else if (!options.quiet && process_rank() == 0)
       std::cout << "      exit " << outcome.exit_code << ", " << result::format_fixed(outcome.seconds, 1)
                 << " s, wrote " << outcome.result_path << "\n"
                 << std::flush;

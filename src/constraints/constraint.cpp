@@ -11,6 +11,7 @@
 #include <stdexcept>
 
 #include "sigmatube/core/error.h"
+#include "clearance_kernels.h"
 
 namespace sigmatube::constraints {
 namespace {
@@ -257,6 +258,16 @@ const casefile::ConstraintOptions& Constraint::options() const { return impl_->o
 std::pair<double, double> Constraint::window() const { return impl_->window; }
 const std::vector<int>& Constraint::output_indices() const { return impl_->indices; }
 
+Constraint Constraint::with_output_columns(const std::vector<int>& column_of) const {
+  Constraint moved(*this);
+  for (int& index : moved.impl_->indices) {
+    if (index < 0 || static_cast<std::size_t>(index) >= column_of.size() || column_of[static_cast<std::size_t>(index)] < 0)
+      throw std::logic_error("Constraint::with_output_columns: an output it reads has no column");
+    index = column_of[static_cast<std::size_t>(index)];
+  }
+  return moved;
+}
+
 bool Constraint::in_window(double t) const {
   const double tolerance = 1e-9 * std::max(1.0, std::abs(t));
   return t >= impl_->window.first - tolerance && t <= impl_->window.second + tolerance;
@@ -271,6 +282,22 @@ void Constraint::clearance(const Eigen::Ref<const Eigen::MatrixXd>& block, doubl
     if (index >= block.cols()) throw std::logic_error("Constraint::clearance: block has too few output columns");
   }
   const std::size_t n = m.indices.size();
+  // Positions of 2 or 3 coordinates: the column-wise kernels (same bits as the row loop below).
+  if (kernels::supported(n) && rows > 0) {
+    const double* x[3] = {nullptr, nullptr, nullptr};
+    for (std::size_t k = 0; k < n; ++k) x[k] = block.col(m.indices[k]).data();
+    const int nn = static_cast<int>(n);
+    switch (m.options.type) {
+      case ConstraintKind::outside_sphere: return kernels::sphere(nn, x, rows, m.center.data(), m.radius, c.data());
+      case ConstraintKind::outside_ellipsoid:
+        return kernels::ellipsoid(nn, x, rows, m.center.data(), m.inverse_semi_axes.data(), m.min_semi_axis, c.data());
+      case ConstraintKind::inside_cone:
+        return kernels::cone(nn, x, rows, m.apex.data(), m.axis_unit.data(), m.sin_half, m.cos_half, c.data());
+      case ConstraintKind::half_space:
+        return kernels::half_space(nn, x, rows, m.normal.data(), m.options.offset, m.normal_norm, c.data());
+      default: break;
+    }
+  }
   auto position = [&](Eigen::Index row, Eigen::VectorXd& p) {
     for (std::size_t k = 0; k < n; ++k) p[static_cast<Eigen::Index>(k)] = block(row, m.indices[k]);
   };

@@ -7,15 +7,21 @@
 #include "sigmatube/core/scrambled_sobol.h"
 
 namespace sigmatube::constraints {
-std::vector<int> constraint_columns(const std::vector<Constraint>& list, int n_times, int n_out) {
-  std::vector<char> used(static_cast<std::size_t>(n_out), 0);
+CompactOutputs compact_outputs(const std::vector<Constraint>& list, int n_times, int n_out) {
+  CompactOutputs out;
+  std::vector<int> column_of(static_cast<std::size_t>(n_out), -1);
   for (const auto& c : list)
-    for (int o : c.output_indices()) used[static_cast<std::size_t>(o)] = 1;
-  std::vector<int> columns;
+    for (int o : c.output_indices()) column_of[static_cast<std::size_t>(o)] = 0;
+  for (int o = 0; o < n_out; ++o)
+    if (column_of[static_cast<std::size_t>(o)] == 0) {
+      column_of[static_cast<std::size_t>(o)] = static_cast<int>(out.outputs.size());
+      out.outputs.push_back(o);
+    }
   for (int t = 0; t < n_times; ++t)
-    for (int o = 0; o < n_out; ++o)
-      if (used[static_cast<std::size_t>(o)]) columns.push_back(t * n_out + o);
-  return columns;
+    for (int o : out.outputs) out.columns.push_back(t * n_out + o);
+  out.constraints.reserve(list.size());
+  for (const auto& c : list) out.constraints.push_back(c.with_output_columns(column_of));
+  return out;
 }
 
 ViolationResults sample_surrogate(const std::vector<Constraint>& list, const expansion::Surrogate& surrogate,
@@ -23,17 +29,15 @@ ViolationResults sample_surrogate(const std::vector<Constraint>& list, const exp
                                   unsigned long long seed, int threads,
                                   const std::function<void(long long done)>& progress) {
   if (list.empty()) return {};
-  const int n_out = surrogate.n_outputs;
   const int d = germ.dimension();
-  const std::vector<int> columns = constraint_columns(list, surrogate.n_times, n_out);
+  const CompactOutputs compact = compact_outputs(list, surrogate.n_times, surrogate.n_outputs);
   const CounterRng rng(seed ^ kSurrogateStream);
   std::atomic<long long> sampled{0};
   return stream_violation_statistics(
-      list, times_in_seconds, n_out, samples, kSurrogateChunk, threads,
+      compact.constraints, times_in_seconds, static_cast<int>(compact.outputs.size()), samples, kSurrogateChunk, threads,
       [&](long long begin, long long end, Eigen::MatrixXd& Y) {
         const Eigen::Index n = static_cast<Eigen::Index>(end - begin);
-        expansion::surrogate_outputs(surrogate, germ::germ_points(germ, germ::standard_normal_points(rng, begin, n, d)),
-                                     columns, Y);
+        surrogate.evaluate(germ::germ_points(germ, germ::standard_normal_points(rng, begin, n, d)), Y, compact.columns);
         const long long done = sampled += n;
         if (progress) progress(done);
       });
@@ -56,16 +60,15 @@ SurrogateSampling sample_surrogate_to_target(const std::vector<Constraint>& list
   target.cap = cap;
   target.relative = options.sampling_relative_error;
   target.absolute = options.sampling_absolute_error;
-  const int n_out = surrogate.n_outputs;
-  const std::vector<int> columns = constraint_columns(list, surrogate.n_times, n_out);
+  const CompactOutputs compact = compact_outputs(list, surrogate.n_times, surrogate.n_outputs);
   std::atomic<long long> sampled{0};
   const PrecisionSampling p = stream_to_precision(
-      list, times_in_seconds, n_out, target, kSurrogateChunk, threads,
+      compact.constraints, times_in_seconds, static_cast<int>(compact.outputs.size()), target, kSurrogateChunk, threads,
       [&](int replicate, long long first, long long count, Eigen::MatrixXd& Y) {
         const ScrambledSobol sobol(d, seed ^ kSurrogateStream, static_cast<std::uint64_t>(replicate));
         Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> z(count, d);
         sobol.normals(static_cast<std::uint64_t>(first), static_cast<std::size_t>(count), z.data());
-        expansion::surrogate_outputs(surrogate, germ::germ_points(germ, z), columns, Y);
+        surrogate.evaluate(germ::germ_points(germ, z), Y, compact.columns);
         const long long done = sampled += count;
         if (progress) progress(done);
       });

@@ -7,6 +7,8 @@
 #include <cmath>
 #include <cstring>
 #include <limits>
+#include <memory>
+#include <mutex>
 #include <sstream>
 #include <stdexcept>
 
@@ -192,6 +194,17 @@ void ViolationStatistics::add(const Eigen::Ref<const Eigen::MatrixXd>& Y, const 
   n_ += nb;
 }
 
+void ViolationStatistics::keep_below_limits_of(const ViolationStatistics& total) {
+  if (total.per_.size() != per_.size() || total.times_.size() != times_.size())
+    throw std::logic_error("ViolationStatistics::keep_below_limits_of: accumulators of different shape");
+  for (std::size_t j = 0; j < per_.size(); ++j) {
+    PerConstraint& p = per_[j];
+    const PerConstraint& q = total.per_[j];
+    for (std::size_t t = 0; t < p.limit.size(); ++t) p.limit[t] = std::min(p.limit[t], q.limit[t]);
+    p.path_limit = std::min(p.path_limit, q.path_limit);
+  }
+}
+
 void ViolationStatistics::merge(const ViolationStatistics& later) {
   if (later.per_.size() != per_.size() || later.times_.size() != times_.size()) {
     throw std::logic_error("ViolationStatistics::merge: accumulators of different shape");
@@ -299,13 +312,57 @@ ViolationResults ViolationStatistics::results() const {
 }
 
 namespace {
-// The partial accumulators of one wave, computed over MPI ranks (each rank its
-// block of chunks, on its threads) and shared, so that every rank merges the
-// same partials in the same order: the single-process result for any rank count.
-void compute_partials(std::vector<ViolationStatistics>& partial, int threads, const std::function<void(std::size_t)>& fill) {
+// Output blocks of the chunks, reused from chunk to chunk: a fresh
+// [chunk × T·n_out] matrix per chunk is mapped and page-faulted anew each time.
+class BlockPool {
+ public:
+  std::unique_ptr<Eigen::MatrixXd> take() {
+    std::lock_guard<std::mutex> lock(mutex_);
+    if (free_.empty()) return std::make_unique<Eigen::MatrixXd>();
+    auto block = std::move(free_.back());
+    free_.pop_back();
+    return block;
+  }
+  void give(std::unique_ptr<Eigen::MatrixXd> block) {
+    std::lock_guard<std::mutex> lock(mutex_);
+    free_.push_back(std::move(block));
+  }
+
+ private:
+  std::mutex mutex_;
+  std::vector<std::unique_ptr<Eigen::MatrixXd>> free_;
+};
+
+// One wave of `in_wave` chunks: chunk w's block of rows(w) samples is filled by
+// fill(w, Y) and added to its own partial accumulator (sample index first(w) for
+// messages). The partials are computed over MPI ranks (each rank its block of
+// chunks, on its threads) and shared, so that every rank merges the same partials
+// in the same order: the single-process result for any rank count. They keep only
+// values below total's limits (keep_below_limits_of).
+std::vector<ViolationStatistics> wave_partials(const ViolationStatistics& total, const std::vector<Constraint>& constraints,
+                                               const Eigen::VectorXd& times, int n_outputs, long long max_samples,
+                                               std::size_t in_wave, int threads, BlockPool& pool,
+                                               const std::function<long long(std::size_t)>& rows,
+                                               const std::function<long long(std::size_t)>& first,
+                                               const std::function<void(std::size_t, Eigen::MatrixXd&)>& fill) {
+  std::vector<ViolationStatistics> partial;
+  partial.reserve(in_wave);
+  for (std::size_t w = 0; w < in_wave; ++w) {
+    partial.emplace_back(constraints, times, n_outputs, max_samples);
+    partial.back().keep_below_limits_of(total);
+  }
   run_distributed_items(
-      partial.size(), threads, fill, [&](std::size_t w) { return partial[w].pack(); },
+      in_wave, threads,
+      [&](std::size_t w) {
+        std::unique_ptr<Eigen::MatrixXd> Y = pool.take();
+        Y->resize(rows(w), times.size() * n_outputs);
+        fill(w, *Y);
+        partial[w].add(*Y, first(w));
+        pool.give(std::move(Y));
+      },
+      [&](std::size_t w) { return partial[w].pack(); },
       [&](std::size_t w, const double* data, std::size_t size) { partial[w].unpack(data, size); });
+  return partial;
 }
 }  // namespace
 
@@ -315,18 +372,15 @@ ViolationResults stream_violation_statistics(
   if (count < 0 || chunk <= 0) throw std::logic_error("stream_violation_statistics: bad count or chunk");
   ViolationStatistics total(constraints, times, n_outputs, count);
   const long long n_chunks = (count + chunk - 1) / chunk;
+  BlockPool pool;
   for (long long wave = 0; wave < n_chunks; wave += kChunksPerWave) {
     const long long in_wave = std::min(kChunksPerWave, n_chunks - wave);
-    std::vector<ViolationStatistics> partial;
-    partial.reserve(static_cast<std::size_t>(in_wave));
-    for (long long w = 0; w < in_wave; ++w) partial.emplace_back(constraints, times, n_outputs, count);
-    compute_partials(partial, threads, [&](std::size_t w) {
-      const long long begin = (wave + static_cast<long long>(w)) * chunk;
-      const long long end = std::min(count, begin + chunk);
-      Eigen::MatrixXd Y(end - begin, times.size() * n_outputs);
-      fill(begin, end, Y);
-      partial[w].add(Y, begin);
-    });
+    const auto begin = [&](std::size_t w) { return (wave + static_cast<long long>(w)) * chunk; };
+    const auto end = [&](std::size_t w) { return std::min(count, begin(w) + chunk); };
+    const std::vector<ViolationStatistics> partial = wave_partials(
+        total, constraints, times, n_outputs, count, static_cast<std::size_t>(in_wave), threads, pool,
+        [&](std::size_t w) { return end(w) - begin(w); }, begin,
+        [&](std::size_t w, Eigen::MatrixXd& Y) { fill(begin(w), end(w), Y); });
     total.merge_all(partial, threads);
   }
   return total.results();
@@ -473,6 +527,7 @@ PrecisionSampling stream_to_precision(
   double smallest_bound = std::numeric_limits<double>::infinity();
   for (const auto& c : constraints) smallest_bound = std::min(smallest_bound, c.max_probability());
 
+  BlockPool pool;
   long long done = 0;  // points per replicate so far
   long long next = std::min(target.first_points, cap / R);
   while (static_cast<long long>(R) * next <= cap) {
@@ -486,16 +541,15 @@ PrecisionSampling stream_to_precision(
       for (long long b = done; b < next; b += chunk) items.push_back({r, b, std::min(next, b + chunk)});
     for (std::size_t wave = 0; wave < items.size(); wave += static_cast<std::size_t>(kChunksPerWave)) {
       const std::size_t in_wave = std::min<std::size_t>(static_cast<std::size_t>(kChunksPerWave), items.size() - wave);
-      std::vector<ViolationStatistics> partial;
-      partial.reserve(in_wave);
-      for (std::size_t w = 0; w < in_wave; ++w) partial.emplace_back(constraints, times, n_outputs, cap);
-      compute_partials(partial, threads, [&](std::size_t w) {
-        const Item& item = items[wave + w];
-        Eigen::MatrixXd Y(item.end - item.begin, times.size() * n_outputs);
-        fill(item.replicate, item.begin, item.end - item.begin, Y);
-        // Global sample index for messages: replicate-major within the doubling.
-        partial[w].add(Y, static_cast<long long>(item.replicate) * cap + item.begin);
-      });
+      const std::vector<ViolationStatistics> partial = wave_partials(
+          total, constraints, times, n_outputs, cap, in_wave, threads, pool,
+          [&](std::size_t w) { return items[wave + w].end - items[wave + w].begin; },
+          // Global sample index for messages: replicate-major within the doubling.
+          [&](std::size_t w) { return static_cast<long long>(items[wave + w].replicate) * cap + items[wave + w].begin; },
+          [&](std::size_t w, Eigen::MatrixXd& Y) {
+            const Item& item = items[wave + w];
+            fill(item.replicate, item.begin, item.end - item.begin, Y);
+          });
       for (std::size_t w = 0; w < in_wave; ++w) {
         const ViolationStatistics::Counts c = partial[w].counts();
         auto& acc = per_replicate[static_cast<std::size_t>(items[wave + w].replicate)];

@@ -589,14 +589,6 @@ Surrogate constant_surrogate(const Eigen::MatrixXd& nominal_outputs) {
   return s;
 }
 
-void surrogate_outputs(const Surrogate& surrogate, const Eigen::MatrixXd& points, const std::vector<int>& columns,
-                       Eigen::MatrixXd& Y) {
-  Eigen::MatrixXd values;
-  surrogate.evaluate(points, values, columns);
-  Y.setZero(points.rows(), static_cast<Eigen::Index>(surrogate.n_times) * surrogate.n_outputs);
-  for (std::size_t k = 0; k < columns.size(); ++k) Y.col(columns[k]) = values.col(static_cast<Eigen::Index>(k));
-}
-
 SurrogateStage surrogate_stage(const std::vector<germ::FamilySpec>& families, const Eigen::MatrixXd& nominal_outputs,
                                const casefile::SurrogateOptions& options, const ModelEvaluator& evaluate) {
   SurrogateStage stage;

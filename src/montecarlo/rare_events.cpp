@@ -1,7 +1,7 @@
 // SPDX-License-Identifier: MIT
 #include "sigmatube/montecarlo/rare_events.h"
 
-#include <limits>
+#include <algorithm>
 
 #include "sigmatube/constraints/surrogate_sampling.h"
 #include "sigmatube/constraints/violation_statistics.h"
@@ -18,35 +18,30 @@ constexpr unsigned long long kScreeningStream = 0xD1B54A32D192ED03ULL;
 // offers starts (only the surrogate is evaluated).
 constexpr double kScreeningSpreads[] = {1.0, 1.5, 2.0, 3.0};
 constexpr long long kScreeningViolations = 50;
+// Surrogate points evaluated at once by a screen (bounds its memory, see path_minimum).
+constexpr Eigen::Index kScreenBlock = 2048;
 }  // namespace
 
 RareEventEstimate rare_event_estimate(const germ::Germ& germ, const expansion::Surrogate& surrogate,
                                       const constraints::Constraint& constraint, const Eigen::VectorXd& times,
                                       const RareEventOptions& options, const RunSample& run_sample) {
   const int d = germ.dimension();
-  const int n_out = surrogate.n_outputs;
-  const std::vector<int> columns = constraints::constraint_columns({constraint}, surrogate.n_times, n_out);
-  // The constraint's outputs: columns holds t·n_out + o for them, time by time.
-  const std::size_t n_used = columns.size() / static_cast<std::size_t>(surrogate.n_times);
-  // Path-minimum clearance of the surrogate at standard-normal points z (rows), as
-  // ViolationStatistics::path_minimum computes it on the full [N, T·n_out] outputs,
-  // but with one [N, n_out] block per report time holding only the constraint's
-  // outputs (the others stay zero, as surrogate_outputs leaves them): the screens
-  // never fill a full-width matrix (20 000 × T·n_out doubles).
+  // Path-minimum clearance of the surrogate at standard-normal points z (rows),
+  // from the constraint's own outputs only ([N, T·outputs read]): the screens never
+  // fill a full-width matrix (20 000 × T·n_out doubles).
+  const constraints::CompactOutputs compact = constraints::compact_outputs({constraint}, surrogate.n_times, surrogate.n_outputs);
+  const int n_read = static_cast<int>(compact.outputs.size());
+  // Rows go in blocks of kScreenBlock, so the values never take more than
+  // kScreenBlock × T·outputs read doubles (each row's minimum is its own).
   const auto path_minimum = [&](const Eigen::MatrixXd& z) {
+    const Eigen::MatrixXd points = germ::germ_points(germ, z);
+    Eigen::VectorXd minimum(z.rows());
     Eigen::MatrixXd values;
-    surrogate.evaluate(germ::germ_points(germ, z), values, columns);
-    Eigen::MatrixXd block = Eigen::MatrixXd::Zero(z.rows(), n_out);
-    Eigen::VectorXd minimum = Eigen::VectorXd::Constant(z.rows(), std::numeric_limits<double>::infinity());
-    Eigen::VectorXd c(z.rows());
-    for (Eigen::Index t = 0; t < times.size(); ++t) {
-      if (!constraint.in_window(times[t])) continue;
-      for (std::size_t j = 0; j < n_used; ++j) {
-        const std::size_t k = static_cast<std::size_t>(t) * n_used + j;
-        block.col(columns[k] % n_out) = values.col(static_cast<Eigen::Index>(k));
-      }
-      constraint.clearance(block, times[t], c);
-      minimum = minimum.cwiseMin(c);
+    for (Eigen::Index start = 0; start < points.rows(); start += kScreenBlock) {
+      const Eigen::Index rows = std::min<Eigen::Index>(kScreenBlock, points.rows() - start);
+      surrogate.evaluate(points.middleRows(start, rows), values, compact.columns);
+      constraints::ViolationStatistics::path_minimum(compact.constraints.front(), times, n_read, values,
+                                                     minimum.segment(start, rows));
     }
     return minimum;
   };
@@ -75,7 +70,7 @@ RareEventEstimate rare_event_estimate(const germ::Germ& germ, const expansion::S
   is_options.confidence = options.confidence;
   is_options.threads = options.threads;
   is_options.cov_target = options.cov_target;
-  out.sampling = importance_sample_constraint(out.proposal, constraint, times, n_out,
+  out.sampling = importance_sample_constraint(out.proposal, constraint, times, surrogate.n_outputs,
                                               in_standard_normal_space(germ.specs(), run_sample), is_options);
   return out;
 }

@@ -6,6 +6,7 @@
 
 #include <cmath>
 #include <cstdio>
+#include <cstring>
 #include <thread>
 
 #include "sigmatube/core/error.h"
@@ -244,6 +245,96 @@ TEST(Constraint, WindowDefaultsToTheWholeGridAndIsClosed) {
   EXPECT_TRUE(window.in_window(20.0));
   EXPECT_FALSE(window.in_window(9.9));
   EXPECT_FALSE(window.in_window(20.1));
+}
+
+// The column-wise kernels (positions of 2 and 3 coordinates) against the
+// definitions written with Eigen vectors row by row, as the general path does:
+// the same IEEE operations in the same order, so equal bit for bit (memcmp).
+// Points spread over all sides of each shape, behind the cone's apex too.
+TEST(Constraint, ColumnKernelsEqualTheRowFormulasBitForBit) {
+  const std::vector<std::string> outputs = {"x", "y", "z", "w"};
+  std::uint64_t state = 0x2545F4914F6CDD1DULL;  // fixed-seed xorshift (common practice)
+  auto uniform = [&] {
+    state ^= state << 13;
+    state ^= state >> 7;
+    state ^= state << 17;
+    return static_cast<double>(state >> 11) * 0x1.0p-53 * 40.0 - 20.0;
+  };
+  const Eigen::Index rows = 1001;  // odd: the vector loops' remainders too
+  Eigen::MatrixXd block(rows, 4);
+  for (Eigen::Index i = 0; i < rows; ++i)
+    for (int j = 0; j < 4; ++j) block(i, j) = uniform();
+  for (const std::vector<std::string> position : {std::vector<std::string>{"x", "y"}, {"x", "z", "w"}}) {
+    const std::size_t n = position.size();
+    const std::vector<Eigen::Index> columns = n == 2 ? std::vector<Eigen::Index>{0, 1} : std::vector<Eigen::Index>{0, 2, 3};
+    auto vec = [&](std::initializer_list<double> v) { return std::vector<double>(v.begin(), v.begin() + n); };
+    for (ConstraintKind kind : {ConstraintKind::outside_sphere, ConstraintKind::outside_ellipsoid,
+                                ConstraintKind::inside_cone, ConstraintKind::half_space}) {
+      ConstraintOptions o = base(kind);
+      o.position = position;
+      o.center = vec({1.5, -2.25, 0.75});
+      o.radius = 7.0;
+      o.semi_axes = vec({6.0, 3.5, 2.0});
+      o.apex = vec({0.5, -1.0, 2.0});
+      o.axis = vec({0.3, -1.0, 0.2});
+      o.half_angle_deg = 20.0;
+      o.normal = vec({3.0, -4.0, 1.5});
+      o.offset = 2.5;
+      const Constraint c(o, outputs);
+      const Eigen::VectorXd fast = clearance_of(c, block);
+      // Row formulas with dynamic Eigen vectors (the definitions of docs/case-file.md).
+      const Eigen::Map<const Eigen::VectorXd> center(o.center.data(), static_cast<Eigen::Index>(n));
+      const Eigen::Map<const Eigen::VectorXd> semi(o.semi_axes.data(), static_cast<Eigen::Index>(n));
+      const Eigen::Map<const Eigen::VectorXd> apex(o.apex.data(), static_cast<Eigen::Index>(n));
+      const Eigen::Map<const Eigen::VectorXd> normal(o.normal.data(), static_cast<Eigen::Index>(n));
+      const Eigen::VectorXd axis = Eigen::Map<const Eigen::VectorXd>(o.axis.data(), static_cast<Eigen::Index>(n));
+      const Eigen::VectorXd axis_unit = axis / axis.norm();
+      const Eigen::VectorXd inverse = semi.cwiseInverse();
+      const double pi = 3.14159265358979323846;
+      const double sin_half = std::sin(o.half_angle_deg * pi / 180.0), cos_half = std::cos(o.half_angle_deg * pi / 180.0);
+      Eigen::VectorXd slow(rows), p(static_cast<Eigen::Index>(n));
+      for (Eigen::Index i = 0; i < rows; ++i) {
+        for (std::size_t k = 0; k < n; ++k) p[static_cast<Eigen::Index>(k)] = block(i, columns[k]);
+        switch (kind) {
+          case ConstraintKind::outside_sphere: slow[i] = (p - center).norm() - o.radius; break;
+          case ConstraintKind::outside_ellipsoid:
+            slow[i] = ((p - center).cwiseProduct(inverse).norm() - 1.0) * semi.minCoeff();
+            break;
+          case ConstraintKind::inside_cone: {
+            const Eigen::VectorXd v = p - apex;
+            const double h = v.dot(axis_unit);
+            const double rho = (v - h * axis_unit).norm();
+            const double across = h * sin_half - rho * cos_half;
+            slow[i] = across >= 0.0 || h * cos_half + rho * sin_half >= 0.0 ? across : -v.norm();
+            break;
+          }
+          default: slow[i] = (o.offset - normal.dot(p)) / normal.norm(); break;
+        }
+      }
+      EXPECT_EQ(std::memcmp(fast.data(), slow.data(), sizeof(double) * static_cast<std::size_t>(rows)), 0)
+          << kind_name(kind) << " with " << n << " coordinates";
+    }
+  }
+}
+
+// A constraint moved to a block that holds only the outputs it reads gives the
+// same clearances as on the full block.
+TEST(Constraint, WithOutputColumnsReadsTheCompactBlock) {
+  auto o = base(ConstraintKind::outside_sphere);
+  o.position = {"y", "vx", "z"};
+  o.center = {1, 2, 3};
+  o.radius = 2.0;
+  const Constraint c(o, kOutputs);
+  const Eigen::MatrixXd full = block_of({{0, 4, 6, 3, 9, 9}, {7, 1, 2, 5, 9, 9}, {-1, 1, 2, 3, 9, 9}});
+  // Outputs read: y (1), z (2), vx (3) → columns 0, 1, 2 of the compact block.
+  const std::vector<int> column_of = {-1, 0, 1, 2, -1, -1};
+  const Eigen::MatrixXd compact = full.middleCols(1, 3);
+  const Constraint moved = c.with_output_columns(column_of);
+  const Eigen::VectorXd a = clearance_of(c, full), b = clearance_of(moved, compact);
+  EXPECT_EQ(std::memcmp(a.data(), b.data(), sizeof(double) * 3), 0);
+  // Row 0: (y, vx, z) = (4, 3, 6), minus the centre (1, 2, 3): (3, 1, 3), distance √19.
+  EXPECT_NEAR(a[0], std::sqrt(19.0) - 2.0, kTolerance);
+  EXPECT_THROW(c.with_output_columns({-1, 0, -1, 2, -1, -1}), std::logic_error);  // z has no column
 }
 
 }  // namespace

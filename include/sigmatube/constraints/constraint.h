@@ -74,6 +74,10 @@ class Constraint {
   bool in_window(double t) const;
   /// Output columns the clearance reads.
   const std::vector<int>& output_indices() const;
+  /// The same constraint reading output o from column column_of[o] of a block
+  /// (for blocks that hold only the outputs some constraints read).
+  /// @throws std::logic_error when an output it reads has no column (column_of[o] < 0 or o out of range).
+  Constraint with_output_columns(const std::vector<int>& column_of) const;
 
   /// c[i] = clearance of row i of `block` ([N, n_out], the outputs at time t).
   /// Const and safe to call from several threads at once (expression evaluators are

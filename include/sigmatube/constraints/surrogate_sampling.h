@@ -17,14 +17,21 @@
 // Layer constraints/ (DEVELOPERS.md: the pipeline, folder by folder).
 namespace sigmatube::constraints {
 
-/// Columns t·n_out + o of every output the constraints read, at every report time.
-std::vector<int> constraint_columns(const std::vector<Constraint>& list, int n_times, int n_out);
+/// The outputs the constraints read, and the constraints rewritten to read them
+/// from blocks that hold only these outputs: sampling then evaluates and keeps
+/// [N, T·outputs.size()] values, never the full [N, T·n_out].
+struct CompactOutputs {
+  std::vector<int> outputs;          ///< output indices read by some constraint, ascending
+  std::vector<int> columns;          ///< surrogate columns t·n_out + outputs[k], t-major: column t·outputs.size() + k of the block
+  std::vector<Constraint> constraints;  ///< the list, reading output outputs[k] from column k of each time's block
+};
+CompactOutputs compact_outputs(const std::vector<Constraint>& list, int n_times, int n_out);
 
 /// The surrogate's sampling stream must differ from the Monte Carlo stream of the
 /// same seed, or the cross-check would reuse the very germ points it checks.
 inline constexpr unsigned long long kSurrogateStream = 0x9E3779B97F4A7C15ULL;
 
-/// Surrogate samples per chunk: bounds memory at chunk × (T·n_out) doubles per thread.
+/// Surrogate samples per chunk: bounds memory at chunk × (T·outputs read) doubles per thread.
 inline constexpr long long kSurrogateChunk = 2048;
 
 /// `samples` surrogate samples: sample i at the germ point of the standard-normal

@@ -94,6 +94,12 @@ class ViolationStatistics {
   /// report times spread over `threads` threads and the kept smallest values
   /// merged in bulk (one selection per time instead of a heap push per value).
   void merge_all(const std::vector<ViolationStatistics>& later, int threads);
+  /// From now on keeps no value at or above `total`'s current limits (the k-th
+  /// smallest value so far at each time and of the path minima): for a partial
+  /// accumulator that will be merged into `total`, whose kept values already
+  /// include k values at or below each limit, so the merged order statistics are
+  /// the same. Spares partials of later waves from keeping every value of their chunk.
+  void keep_below_limits_of(const ViolationStatistics& total);
   /// The accumulator's state as doubles (counts bit-copied), for sending to
   /// other MPI ranks; unpack() restores it into an accumulator built with the
   /// same constraints, times, outputs and max_samples, bit for bit.

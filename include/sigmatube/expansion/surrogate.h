@@ -131,11 +131,6 @@ Surrogate build_surrogate(const std::vector<germ::FamilySpec>& families, int n_t
 /// column, the nominal run ([n_times, n_outputs]).
 Surrogate constant_surrogate(const Eigen::MatrixXd& nominal_outputs);
 
-/// Surrogate outputs at germ points (rows) in the [N, n_times·n_outputs] layout of
-/// a model run, only `columns` evaluated (the others 0).
-void surrogate_outputs(const Surrogate& surrogate, const Eigen::MatrixXd& points, const std::vector<int>& columns,
-                       Eigen::MatrixXd& Y);
-
 /// The surrogate stage of an analysis and what it returns.
 struct SurrogateStage {
   Surrogate surrogate;

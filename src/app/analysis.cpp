@@ -135,7 +135,7 @@ result::AnalysisResult analyze_case(const LoadedCase& loaded, const AnalysisOpti
   // sampling stream (app/breakdown_stages.h).
   quantile_stage(loaded, surrogate.surrogate, mc_options.seed ^ constraints::kSurrogateStream, samples, threads, r);
   input_share_stage(loaded, surrogate.surrogate, surrogate.summary, mc_options.seed ^ constraints::kSurrogateStream,
-                    samples, mc_options.confidence, r);
+                    samples, mc_options.confidence, threads, r);
 
   if (mc_options.runs > 0 && d > 0) {
     const montecarlo::RunSample run_sample = runner.run_sample();

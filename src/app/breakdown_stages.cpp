@@ -7,6 +7,8 @@
 #include <mutex>
 
 #include "sigmatube/constraints/quantile_tube.h"
+#include "sigmatube/constraints/surrogate_sampling.h"
+#include "sigmatube/core/parallel.h"
 #include "sigmatube/core/counter_rng.h"
 #include "sigmatube/expansion/grouped_sobol.h"
 #include "sigmatube/model/deterministic_tube.h"
@@ -69,7 +71,7 @@ void quantile_stage(const LoadedCase& loaded, const expansion::Surrogate& surrog
 
 void input_share_stage(const LoadedCase& loaded, const expansion::Surrogate& surrogate,
                        const expansion::SurrogateSummary& summary, unsigned long long stream_seed, long long samples,
-                       double confidence, result::AnalysisResult& r) {
+                       double confidence, int threads, result::AnalysisResult& r) {
   const auto& germ = *loaded.germ;
   auto& s = r.surrogate;
   s.input_names = germ.input_names();
@@ -107,23 +109,32 @@ void input_share_stage(const LoadedCase& loaded, const expansion::Surrogate& sur
   const Eigen::LDLT<Eigen::MatrixXd> normal(gram_inverse_source);
   expansion::CoefficientCovariance cov;
   cov.gram = normal.solve(Eigen::MatrixXd::Identity(P, P));
-  // Clearances of every constraint at every time, one time's outputs at a time.
+  // Clearances of every constraint at every time, from the outputs the constraints
+  // read only; report times, then constraints, spread over threads (each item
+  // writes its own columns or constraint: the same values for any thread count).
+  const constraints::CompactOutputs compact = constraints::compact_outputs(loaded.constraints, n_times, n_out);
+  const int n_read = static_cast<int>(compact.outputs.size());
+  Eigen::MatrixXd selected(P, static_cast<Eigen::Index>(compact.columns.size()));
+  for (std::size_t j = 0; j < compact.columns.size(); ++j)
+    selected.col(static_cast<Eigen::Index>(j)) = surrogate.coefficients.col(compact.columns[j]);
   std::vector<Eigen::MatrixXd> clearances(loaded.constraints.size(), Eigen::MatrixXd(n, n_times));
-  for (int t = 0; t < n_times; ++t) {
-    const Eigen::MatrixXd block = basis * surrogate.coefficients.middleCols(static_cast<Eigen::Index>(t) * n_out, n_out);
+  parallel_for(static_cast<std::size_t>(n_times), threads, [&](std::size_t ts) {
+    const Eigen::Index t = static_cast<Eigen::Index>(ts);
+    const Eigen::MatrixXd block = basis * selected.middleCols(t * n_read, n_read);
     Eigen::VectorXd c(n);
-    for (std::size_t k = 0; k < loaded.constraints.size(); ++k) {
-      loaded.constraints[k].clearance(block, r.time[static_cast<std::size_t>(t)], c);
+    for (std::size_t k = 0; k < compact.constraints.size(); ++k) {
+      compact.constraints[k].clearance(block, r.time[ts], c);
       clearances[k].col(t) = c;
     }
-  }
-  for (std::size_t k = 0; k < loaded.constraints.size(); ++k) {
+  });
+  parallel_for(loaded.constraints.size(), threads, [&](std::size_t k) {
     const Eigen::MatrixXd& clearance = clearances[k];
     const Eigen::MatrixXd coefficients = normal.solve(basis.transpose() * clearance);
-    cov.residual_variance = Eigen::VectorXd::Constant(n_times, std::numeric_limits<double>::quiet_NaN());
+    expansion::CoefficientCovariance fit = cov;
+    fit.residual_variance = Eigen::VectorXd::Constant(n_times, std::numeric_limits<double>::quiet_NaN());
     if (n > P)
-      cov.residual_variance = (clearance - basis * coefficients).colwise().squaredNorm().transpose() / double(n - P);
-    const expansion::GroupedSobol shares = expansion::grouped_sobol(surrogate.indices, coefficients, groups, &cov, confidence);
+      fit.residual_variance = (clearance - basis * coefficients).colwise().squaredNorm().transpose() / double(n - P);
+    const expansion::GroupedSobol shares = expansion::grouped_sobol(surrogate.indices, coefficients, groups, &fit, confidence);
     auto& c = r.constraints[k];
     c.sobol_first_by_input = shares.first;
     c.sobol_total_by_input = shares.total;
@@ -131,7 +142,7 @@ void input_share_stage(const LoadedCase& loaded, const expansion::Surrogate& sur
     c.sobol_first_by_input_upper = shares.first_upper;
     c.sobol_total_by_input_lower = shares.total_lower;
     c.sobol_total_by_input_upper = shares.total_upper;
-  }
+  });
 }
 
 void tube_stage(const LoadedCase& loaded, result::AnalysisResult& r) {

@@ -142,40 +142,87 @@ void ViolationStatistics::add(const Eigen::Ref<const Eigen::MatrixXd>& Y, const 
   if (n_ + nb > max_samples_) throw std::logic_error("ViolationStatistics::add: more samples than max_samples");
   if (nb == 0) return;
   std::vector<std::uint8_t> joint(static_cast<std::size_t>(rows), 0);
-  Eigen::VectorXd c(rows), path_min(rows);
+  Eigen::VectorXd path_min(rows);
+  const bool every_row = nb == rows;
+  // Report times go kTimesAtOnce at a time: their sums run as independent chains
+  // (each in its own row order, so the same bits as one time after the other).
+  constexpr Eigen::Index kTimesAtOnce = 4;
+  Eigen::MatrixXd C(rows, kTimesAtOnce);
   for (std::size_t j = 0; j < per_.size(); ++j) {
     const Constraint& constraint = (*constraints_)[j];
     PerConstraint& p = per_[j];
     path_min.setConstant(std::numeric_limits<double>::infinity());
-    for (Eigen::Index t = 0; t < T; ++t) {
-      constraint.clearance(Y.middleCols(t * n_outputs_, n_outputs_), times_[t], c);
-      const bool window = constraint.in_window(times_[t]);
-      const std::size_t ts = static_cast<std::size_t>(t);
-      double sum = 0.0;
-      for (Eigen::Index i = 0; i < rows; ++i) {
-        if (!keep[static_cast<std::size_t>(i)]) continue;
-        const double x = c[i];
-        if (std::isnan(x)) {
+    for (Eigen::Index t0 = 0; t0 < T; t0 += kTimesAtOnce) {
+      const Eigen::Index g = std::min(kTimesAtOnce, T - t0);
+      for (Eigen::Index q = 0; q < g; ++q)
+        constraint.clearance(Y.middleCols((t0 + q) * n_outputs_, n_outputs_), times_[t0 + q], C.col(q));
+      const auto nan_at = [&](Eigen::Index q) {
+        for (Eigen::Index i = 0; i < rows; ++i) {
+          if (!keep[static_cast<std::size_t>(i)] || !std::isnan(C(i, q))) continue;
           std::ostringstream msg;
           msg << "constraint '" << constraint.name() << "': clearance is NaN";
-          throw NumericalError(msg.str(), first_sample < 0 ? -1 : first_sample + i, times_[t]);
+          throw NumericalError(msg.str(), first_sample < 0 ? -1 : first_sample + i, times_[t0 + q]);
         }
-        sum += x;
-        push_bounded(p.smallest[ts], p.limit[ts], p.k, x);
-        if (window) {
-          if (x < 0.0) ++p.violations[ts];
-          path_min[i] = std::min(path_min[i], x);
+      };
+      double sum[kTimesAtOnce] = {0.0, 0.0, 0.0, 0.0};
+      if (every_row && g == kTimesAtOnce) {
+        const double *c0 = C.col(0).data(), *c1 = C.col(1).data(), *c2 = C.col(2).data(), *c3 = C.col(3).data();
+        for (Eigen::Index i = 0; i < rows; ++i) {
+          sum[0] += c0[i];
+          sum[1] += c1[i];
+          sum[2] += c2[i];
+          sum[3] += c3[i];
+        }
+      } else {
+        for (Eigen::Index q = 0; q < g; ++q)
+          for (Eigen::Index i = 0; i < rows; ++i)
+            if (keep[static_cast<std::size_t>(i)]) sum[q] += C(i, q);
+      }
+      // A NaN clearance makes its sum NaN (the sum can also be NaN from +∞ − ∞: then no NaN is found).
+      for (Eigen::Index q = 0; q < g; ++q)
+        if (std::isnan(sum[q])) nan_at(q);
+      double chunk_mean[kTimesAtOnce], chunk_m2[kTimesAtOnce] = {0.0, 0.0, 0.0, 0.0};
+      for (Eigen::Index q = 0; q < g; ++q) {
+        const std::size_t ts = static_cast<std::size_t>(t0 + q);
+        const double* c = C.col(q).data();
+        chunk_mean[q] = sum[q] / static_cast<double>(nb);
+        std::vector<double>& kept = p.smallest[ts];
+        double& limit = p.limit[ts];
+        for (Eigen::Index i = 0; i < rows; ++i)
+          if (c[i] < limit && keep[static_cast<std::size_t>(i)]) push_bounded(kept, limit, p.k, c[i]);
+        if (constraint.in_window(times_[t0 + q])) {
+          long long violations = 0;
+          for (Eigen::Index i = 0; i < rows; ++i) {
+            if (!every_row && !keep[static_cast<std::size_t>(i)]) continue;
+            violations += c[i] < 0.0 ? 1 : 0;
+            path_min[i] = std::min(path_min[i], c[i]);
+          }
+          p.violations[ts] += violations;
         }
       }
-      // Two passes within the chunk, then one Chan merge into the running moments.
-      const double chunk_mean = sum / static_cast<double>(nb);
-      double chunk_m2 = 0.0;
-      for (Eigen::Index i = 0; i < rows; ++i) {
-        if (!keep[static_cast<std::size_t>(i)]) continue;
-        const double d = c[i] - chunk_mean;
-        chunk_m2 += d * d;
+      // Two passes within the chunk, then one Chan merge per time into the running moments.
+      if (every_row && g == kTimesAtOnce) {
+        const double *c0 = C.col(0).data(), *c1 = C.col(1).data(), *c2 = C.col(2).data(), *c3 = C.col(3).data();
+        for (Eigen::Index i = 0; i < rows; ++i) {
+          const double d0 = c0[i] - chunk_mean[0], d1 = c1[i] - chunk_mean[1], d2 = c2[i] - chunk_mean[2],
+                       d3 = c3[i] - chunk_mean[3];
+          chunk_m2[0] += d0 * d0;
+          chunk_m2[1] += d1 * d1;
+          chunk_m2[2] += d2 * d2;
+          chunk_m2[3] += d3 * d3;
+        }
+      } else {
+        for (Eigen::Index q = 0; q < g; ++q)
+          for (Eigen::Index i = 0; i < rows; ++i) {
+            if (!keep[static_cast<std::size_t>(i)]) continue;
+            const double d = C(i, q) - chunk_mean[q];
+            chunk_m2[q] += d * d;
+          }
       }
-      merge_moments(n_, p.mean[ts], p.m2[ts], nb, chunk_mean, chunk_m2);
+      for (Eigen::Index q = 0; q < g; ++q) {
+        const std::size_t ts = static_cast<std::size_t>(t0 + q);
+        merge_moments(n_, p.mean[ts], p.m2[ts], nb, chunk_mean[q], chunk_m2[q]);
+      }
     }
     double path_sum = 0.0;
     for (Eigen::Index i = 0; i < rows; ++i) {

@@ -28,10 +28,11 @@ void quantile_stage(const LoadedCase& loaded, const expansion::Surrogate& surrog
 /// Variance shares per [[uncertain]] entry of every output (from the surrogate's
 /// coefficients, intervals from summary.covariance) and of every constraint's
 /// clearance (a least-squares fit of the clearance on the surrogate's basis over
-/// the same sample points, intervals from that fit), at `confidence`.
+/// the same sample points, intervals from that fit), at `confidence`, on
+/// `threads` threads (the same values for any count).
 void input_share_stage(const LoadedCase& loaded, const expansion::Surrogate& surrogate,
                        const expansion::SurrogateSummary& summary, unsigned long long stream_seed, long long samples,
-                       double confidence, result::AnalysisResult& r);
+                       double confidence, int threads, result::AnalysisResult& r);
 
 /// The deterministic tube of the case's [tube] table into r.tube (nothing
 /// without one). Needs r.time, r.output_names, r.output_units.

@@ -337,6 +337,9 @@ namespace sigmatube::model::lanes {
 namespace {
 
 constexpr std::size_t kB = kProgramBlock, kG = kProgramBlock / kW;  // lanes and vectors per row
+// Every row and term set of the workspace starts on a cache line, so that no
+// vector load or store is split over two lines.
+constexpr std::size_t kWorkAlignment = 64;
 
 // Pre-broadcast stage terms in the workspace: x_ref n, u_ff m, gain m·n vectors.
 SIGMATUBE_INLINE double* broadcast_terms(const StageTerms& s, int n, int m, double* out) {
@@ -350,7 +353,7 @@ SIGMATUBE_INLINE double* broadcast_terms(const StageTerms& s, int n, int m, doub
 // `input` rows; terms pre-broadcast (x_ref, u_ff, gain). Same operations.
 template <int M>
 SIGMATUBE_INLINE void block_inputs(int n, const double* state, const double* terms, bool feedback, const double* scale,
-                                   const double* bias, const double* low, const double* high, double* input) {
+                                   const double* bias, const double* limits, double* input) {
   const Vec zero = broadcast(0.0);
   const double* gain = terms + kW * (n + M);
   for (std::size_t g = 0; g < kG; ++g) {
@@ -364,7 +367,7 @@ SIGMATUBE_INLINE void block_inputs(int n, const double* state, const double* ter
       }
     }
     for (int i = 0; i < M; ++i) {
-      const Vec lo = broadcast(low[i]), hi = broadcast(high[i]);
+      const Vec lo = load(limits + kW * (2 * i)), hi = load(limits + kW * (2 * i + 1));
       Vec v = load(scale + i * kB + kW * g) * u[i] + load(bias + i * kB + kW * g);
       v = v < lo ? lo : v;
       v = hi < v ? hi : v;
@@ -399,7 +402,7 @@ SIGMATUBE_INLINE void run_block_ops(const BlockOp* ops, std::size_t count, doubl
       case K::max: SIGMATUBE_ROW(const Vec bv = load(b + kW * g); acc[g] = acc[g] < bv ? bv : acc[g])  // std::max
         break;
       case K::pow: case K::function: {
-        double v[kB];
+        alignas(kWorkAlignment) double v[kB];
         SIGMATUBE_ROW(store(v + kW * g, acc[g]))
         if (op.kind == K::pow) {
           for (std::size_t e = 0; e < kB; ++e) v[e] = std::pow(v[e], b[e]);
@@ -426,13 +429,16 @@ SIGMATUBE_INLINE void copy_row(const double* from, double* to) { SIGMATUBE_ROW(s
 
 typedef long long Mask __attribute__((vector_size(32)));  // −1 / 0 per lane, as Vec comparisons give
 
+constexpr std::size_t round_up(std::size_t value, std::size_t multiple) { return (value + multiple - 1) / multiple * multiple; }
+
 // Workspace of the block programs: the pre-broadcast stage terms (3 sets), then
 // per block of kB lanes `block_rows` rows: the program rows, then xs (the
 // state, n), the RK sum (n), scale and bias (m each) and the finiteness mask.
 struct BlockLayout {
   std::size_t n, m, term_size, block_rows, xs, sum, scale, bias, good;
   explicit BlockLayout(const ProgramStep& p)
-      : n(static_cast<std::size_t>(p.n)), m(static_cast<std::size_t>(p.m)), term_size(kW * (n + m + m * n)) {
+      : n(static_cast<std::size_t>(p.n)), m(static_cast<std::size_t>(p.m)),
+        term_size(round_up(kW * (n + m + m * n), kWorkAlignment / sizeof(double))) {
     xs = static_cast<std::size_t>(p.rows);
     sum = xs + n;
     scale = sum + n;
@@ -445,18 +451,32 @@ struct BlockLayout {
   const double* block(const double* work, std::size_t k) const { return work + 3 * term_size + k * block_rows * kB; }
 };
 
+// The workspace starts at the first kWorkAlignment-byte boundary of the
+// caller's array (program_blocks_work_size leaves room for it).
+template <class T>
+SIGMATUBE_INLINE T* aligned_work(T* work) {
+  const std::uintptr_t at = reinterpret_cast<std::uintptr_t>(work);
+  return reinterpret_cast<T*>((at + kWorkAlignment - 1) & ~static_cast<std::uintptr_t>(kWorkAlignment - 1));
+}
+
 template <int M>
 SIGMATUBE_INLINE void program_step_blocks(std::size_t L, double t, double h, const StageTerms& sa, const StageTerms& sb,
                                           const StageTerms& sc, const ProgramStep& p, double bound, double* work) {
   const BlockLayout layout(p);
+  work = aligned_work(work);
   const int n = p.n;
   const double* ta = broadcast_terms(sa, n, M, work);
   const double* tb = broadcast_terms(sb, n, M, work + layout.term_size);
   const double* tc = broadcast_terms(sc, n, M, work + 2 * layout.term_size);
   const Vec half = broadcast(0.5 * h), sixth = broadcast(h / 6.0), hv = broadcast(h), two = broadcast(2.0);
   const Vec high = broadcast(bound), low = broadcast(-bound);
-  const double stage_time[4] = {t, t + 0.5 * h, t + 0.5 * h, t + h};
   const double* stage_terms[4] = {ta, tb, tb, tc};
+  // The input limits and the stage times pre-broadcast too, once per step
+  // rather than once per block and vector.
+  alignas(kWorkAlignment) double limits[2 * (M > 0 ? M : 1) * kW], stage_time[4 * kW];
+  for (int i = 0; i < 2 * M; ++i) store(limits + kW * i, broadcast(i % 2 ? p.high[i / 2] : p.low[i / 2]));
+  const double times[4] = {t, t + 0.5 * h, t + 0.5 * h, t + h};
+  for (int s = 0; s < 4; ++s) store(stage_time + kW * s, broadcast(times[s]));
 
   for (std::size_t k = 0; k < layout.blocks(L); ++k) {
     double* w = layout.block(work, k);
@@ -468,8 +488,8 @@ SIGMATUBE_INLINE void program_step_blocks(std::size_t L, double t, double h, con
     const double* bias = w + layout.bias * kB;
     for (int j = 0; j < n; ++j) copy_row(xs + j * kB, state + j * kB);
     for (int s = 0; s < 4; ++s) {
-      SIGMATUBE_ROW(store(w + kW * g, broadcast(stage_time[s])))
-      block_inputs<M>(n, state, stage_terms[s], p.feedback, scale, bias, p.low, p.high, input);
+      SIGMATUBE_ROW(store(w + kW * g, load(stage_time + kW * s)))
+      block_inputs<M>(n, state, stage_terms[s], p.feedback, scale, bias, limits, input);
       run_block_ops(p.ops, p.op_count, w);
       // The stage combinations of integrate_rk4: y = x + (h/2 | h/2 | h)·k and
       // x + h/6·(((k1 + 2·k2) + 2·k3) + k4).
@@ -500,11 +520,12 @@ SIGMATUBE_INLINE void program_step_blocks(std::size_t L, double t, double h, con
 
 std::size_t program_blocks_work_size(std::size_t L, const ProgramStep& p) {
   const BlockLayout layout(p);
-  return 3 * layout.term_size + layout.blocks(L) * layout.block_rows * kB;
+  return 3 * layout.term_size + layout.blocks(L) * layout.block_rows * kB + kWorkAlignment / sizeof(double) - 1;
 }
 
 void program_blocks_load(std::size_t L, const double* x, const ProgramStep& p, double* work) {
   const BlockLayout layout(p);
+  work = aligned_work(work);
   const std::size_t rows = static_cast<std::size_t>(p.rows), n = layout.n, m = layout.m;
   for (std::size_t k = 0; k < layout.blocks(L); ++k) {
     double* w = layout.block(work, k);
@@ -528,6 +549,7 @@ void program_blocks_load(std::size_t L, const double* x, const ProgramStep& p, d
 
 void program_blocks_store(std::size_t L, const ProgramStep& p, const double* work, double* x, std::uint8_t* ok) {
   const BlockLayout layout(p);
+  work = aligned_work(work);
   for (std::size_t k = 0; k < layout.blocks(L); ++k) {
     const double* w = layout.block(work, k);
     const std::size_t l = k * kB, valid = std::min(kB, L - l);

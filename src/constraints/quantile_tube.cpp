@@ -95,58 +95,87 @@ class Quantiles {
     Eigen::Index from = 0;
     for (const Eigen::Index r : ranks_) {
       std::nth_element(sample_.begin() + from, sample_.begin() + r, sample_.end());
-      from = r;
+      from = r + 1;  // (position r keeps its value: the brackets read it below)
     }
     constexpr double kInf = std::numeric_limits<double>::infinity();
     const auto lo_of = [&](std::size_t l) { return lo_rank_[l] < 0 ? -kInf : sample_[static_cast<std::size_t>(lo_rank_[l])]; };
     const auto hi_of = [&](std::size_t l) { return hi_rank_[l] >= s ? kInf : sample_[static_cast<std::size_t>(hi_rank_[l])]; };
-    collected_.resize(static_cast<std::size_t>(n) + 1);
-    bool checked = false;
-    for (std::size_t first = 0; first < L;) {
-      // Levels first … last − 1 share one bracket (theirs overlap or touch).
-      const double lo = lo_of(first);
-      double hi = hi_of(first);
-      std::size_t last = first + 1;
-      while (last < L && lo_of(last) <= hi) hi = std::max(hi, hi_of(last++));
-      Eigen::Index below = 0, inside = 0, above = 0;
-      double* buffer = collected_.data();
-      for (Eigen::Index i = 0; i < n; ++i) {
-        const double x = values[i];
-        buffer[inside] = x;
-        inside += static_cast<Eigen::Index>((x >= lo) & (x <= hi));
-        below += static_cast<Eigen::Index>(x < lo);
-        above += static_cast<Eigen::Index>(x > hi);
+    // Brackets of levels that overlap or touch are merged: intervals m = 0 … M−1,
+    // disjoint and ascending, interval m holding levels first_[m] … first_[m+1] − 1.
+    lo_.clear();
+    hi_.clear();
+    first_.clear();
+    for (std::size_t l = 0; l < L; ++l) {
+      if (!hi_.empty() && lo_of(l) <= hi_.back()) {
+        lo_.back() = std::min(lo_.back(), lo_of(l));
+        hi_.back() = std::max(hi_.back(), hi_of(l));
+        continue;
       }
-      if (!checked && below + inside + above != n) {  // a NaN: neither below, inside nor above
-        quantiles_by_selection(Eigen::Map<const Eigen::VectorXd>(values, n), levels, out, out_stride);
-        return;
-      }
-      checked = true;
+      lo_.push_back(lo_of(l));
+      hi_.push_back(hi_of(l));
+      first_.push_back(l);
+    }
+    first_.push_back(L);
+    const std::size_t M = lo_.size();
+    // (A bracket's lower end can lie below the previous one's: the merged
+    // intervals are then checked to be disjoint and ascending, as the filing
+    // below needs.)
+    bool usable = true;
+    for (std::size_t m = 1; m < M; ++m) usable &= lo_[m] > hi_[m - 1];
+    // A NaN is neither below, inside nor above any bracket: the whole column then
+    // goes to nth_element, as before.
+    for (Eigen::Index i = 0; i < n; ++i) usable &= !std::isnan(values[i]);
+    if (!usable) {
+      quantiles_by_selection(Eigen::Map<const Eigen::VectorXd>(values, n), levels, out, out_stride);
+      return;
+    }
+    // Values below each interval (vectorized counts), then one pass that files the
+    // values inside an interval into its bucket: x lies above the intervals
+    // 0 … m − 1 with m = #{hi < x}, and in interval m if also lo_m ≤ x.
+    below_.assign(M, 0);
+    for (std::size_t m = 0; m < M; ++m) {
+      const double lo = lo_[m];
+      Eigen::Index count = 0;
+      for (Eigen::Index i = 0; i < n; ++i) count += static_cast<Eigen::Index>(values[i] < lo);
+      below_[m] = count;
+    }
+    if (buckets_.size() < M) buckets_.resize(M);
+    for (std::size_t m = 0; m < M; ++m) buckets_[m].clear();
+    for (Eigen::Index i = 0; i < n; ++i) {
+      const double x = values[i];
+      std::size_t m = 0;
+      for (std::size_t j = 0; j < M; ++j) m += static_cast<std::size_t>(hi_[j] < x);
+      if (m < M && x >= lo_[m]) buckets_[m].push_back(x);
+    }
+    for (std::size_t m = 0; m < M; ++m) {
+      std::vector<double>& bucket = buckets_[m];
+      const Eigen::Index inside = static_cast<Eigen::Index>(bucket.size());
       Eigen::Index done = 0;
-      for (std::size_t l = first; l < last; ++l) {
-        const Eigen::Index r = order_index(levels[l], n) - below;
+      for (std::size_t l = first_[m]; l < first_[m + 1]; ++l) {
+        const Eigen::Index k = order_index(levels[l], n);
+        const Eigen::Index r = k - below_[m];
         double q;
         if (r >= 0 && r < inside) {
           if (r >= done) {
-            std::nth_element(buffer + done, buffer + r, buffer + inside);
+            std::nth_element(bucket.begin() + done, bucket.begin() + r, bucket.end());
             done = r;
           }
-          q = buffer[r];
+          q = bucket[static_cast<std::size_t>(r)];
         } else {  // the bracket missed: select among all values
           whole_.assign(values, values + n);
-          const Eigen::Index k = order_index(levels[l], n);
           std::nth_element(whole_.begin(), whole_.begin() + k, whole_.end());
           q = whole_[static_cast<std::size_t>(k)];
         }
         out[static_cast<Eigen::Index>(l) * out_stride] = q;
       }
-      first = last;
     }
   }
 
  private:
-  std::vector<double> sample_, collected_, whole_;
-  std::vector<Eigen::Index> lo_rank_, hi_rank_, ranks_;
+  std::vector<double> sample_, whole_, lo_, hi_;
+  std::vector<std::vector<double>> buckets_;
+  std::vector<Eigen::Index> lo_rank_, hi_rank_, ranks_, below_;
+  std::vector<std::size_t> first_;
 };
 
 }  // namespace

@@ -26,6 +26,13 @@ PackedColumns::PackedColumns(const Eigen::Ref<const Eigen::MatrixXd>& c, const s
 PackedColumns::PackedColumns(const Eigen::Ref<const Eigen::MatrixXd>& c, Eigen::Index first, Eigen::Index count)
     : PackedColumns(c.middleCols(first, count)) {}
 
+Eigen::MatrixXd PackedColumns::unpacked() const {
+  Eigen::MatrixXd c(rows_, cols_);
+  for (Eigen::Index j = 0; j < cols_; ++j)
+    for (Eigen::Index k = 0; k < rows_; ++k) c(k, j) = panel(j / kProductPanel)[k * kProductPanel + j % kProductPanel];
+  return c;
+}
+
 namespace {
 
 constexpr Eigen::Index kPanel = PackedColumns::kProductPanel;

@@ -35,6 +35,8 @@ class PackedColumns {
   Eigen::Index rows() const { return rows_; }
   Eigen::Index cols() const { return cols_; }
   const double* panel(Eigen::Index p) const { return data_.data() + p * rows_ * kProductPanel; }
+  /// The packed columns as a plain [rows, cols] matrix.
+  Eigen::MatrixXd unpacked() const;
 
  private:
   Eigen::Index rows_ = 0, cols_ = 0;

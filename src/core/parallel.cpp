@@ -48,9 +48,12 @@ void parallel_for_chunks(std::size_t count, std::size_t chunk, int threads,
   if (n_threads <= 1) {
     worker();
   } else {
+    // The calling thread is one of the workers: one thread fewer to start and
+    // join per call (loops called once per wave of work do this often).
     std::vector<std::thread> pool;
-    pool.reserve(n_threads);
-    for (int t = 0; t < n_threads; ++t) pool.emplace_back(worker);
+    pool.reserve(static_cast<std::size_t>(n_threads - 1));
+    for (int t = 1; t < n_threads; ++t) pool.emplace_back(worker);
+    worker();
     for (auto& thread : pool) thread.join();
   }
   if (error) std::rethrow_exception(error);

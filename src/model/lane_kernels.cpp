@@ -196,7 +196,7 @@ void allow_avx512(bool on) {
 const char* active_target() {
 #if defined(__GNUC__) && defined(__x86_64__) && !defined(SIGMATUBE_NO_MULTIVERSIONING)
   __builtin_cpu_init();
-  if (avx512()) return "avx512f (HCW whole-step kernel), avx2";
+  if (avx512()) return "avx512f (whole-step kernels), avx2";
   return __builtin_cpu_supports("avx2") ? "avx2" : "x86-64 baseline";
 #else
   return "portable (no multiversioning)";
@@ -337,38 +337,48 @@ namespace sigmatube::model::lanes {
 namespace {
 
 constexpr std::size_t kB = kProgramBlock, kG = kProgramBlock / kW;  // lanes and vectors per row
+// Every row and term set of the workspace starts on a cache line, so that no
+// vector load or store is split over two lines.
+constexpr std::size_t kWorkAlignment = 64;
+// Pre-broadcast terms are eight doubles wide (what an eight-lane vector loads;
+// four-lane code reads the first half).
+constexpr std::size_t kTermWidth = 8;
 
-// Pre-broadcast stage terms in the workspace: x_ref n, u_ff m, gain m·n vectors.
+// Pre-broadcast stage terms in the workspace: x_ref n, u_ff m, gain m·n terms.
+SIGMATUBE_INLINE void broadcast_term(double value, double* out) { std::fill(out, out + kTermWidth, value); }
 SIGMATUBE_INLINE double* broadcast_terms(const StageTerms& s, int n, int m, double* out) {
-  for (int j = 0; j < n; ++j) store(out + kW * j, broadcast(s.x_ref[j]));
-  for (int i = 0; i < m; ++i) store(out + kW * (n + i), broadcast(s.u_ff[i]));
-  for (int q = 0; q < m * n; ++q) store(out + kW * (n + m + q), broadcast(s.gain[q]));
+  for (int j = 0; j < n; ++j) broadcast_term(s.x_ref[j], out + kTermWidth * j);
+  for (int i = 0; i < m; ++i) broadcast_term(s.u_ff[i], out + kTermWidth * (n + i));
+  for (int q = 0; q < m * n; ++q) broadcast_term(s.gain[q], out + kTermWidth * (n + m + q));
   return out;
 }
 
-// closed_loop_inputs_fixed<M> on one block: states from `state` rows, u_app to
-// `input` rows; terms pre-broadcast (x_ref, u_ff, gain). Same operations.
-template <int M>
+// closed_loop_inputs_fixed<M> on one block, in vectors V: states from `state`
+// rows, u_app to `input` rows; terms and limits pre-broadcast (x_ref, u_ff,
+// gain; low, high per input). Same operations.
+template <class V, int M>
 SIGMATUBE_INLINE void block_inputs(int n, const double* state, const double* terms, bool feedback, const double* scale,
-                                   const double* bias, const double* low, const double* high, double* input) {
-  const Vec zero = broadcast(0.0);
-  const double* gain = terms + kW * (n + M);
-  for (std::size_t g = 0; g < kG; ++g) {
-    Vec u[M > 0 ? M : 1];
-    for (int i = 0; i < M; ++i) u[i] = load(terms + kW * (n + i));
+                                   const double* bias, const double* limits, double* input) {
+  constexpr std::size_t W = kWidth<V>;
+  const V zero = {};
+  const double* gain = terms + kTermWidth * static_cast<std::size_t>(n + M);
+  for (std::size_t g = 0; g < kB / W; ++g) {
+    V u[M > 0 ? M : 1];
+    for (int i = 0; i < M; ++i) u[i] = load<V>(terms + kTermWidth * static_cast<std::size_t>(n + i));
     for (int j = 0; j < n && feedback; ++j) {
-      const Vec e = load(state + j * kB + kW * g) - load(terms + kW * j);
+      const V e = load<V>(state + j * kB + W * g) - load<V>(terms + kTermWidth * static_cast<std::size_t>(j));
       for (int i = 0; i < M; ++i) {
-        const Vec term = load(gain + kW * (i * n + j)) * e;
+        const V term = load<V>(gain + kTermWidth * static_cast<std::size_t>(i * n + j)) * e;
         u[i] -= e != zero ? term : zero;
       }
     }
     for (int i = 0; i < M; ++i) {
-      const Vec lo = broadcast(low[i]), hi = broadcast(high[i]);
-      Vec v = load(scale + i * kB + kW * g) * u[i] + load(bias + i * kB + kW * g);
+      const V lo = load<V>(limits + kTermWidth * static_cast<std::size_t>(2 * i));
+      const V hi = load<V>(limits + kTermWidth * static_cast<std::size_t>(2 * i + 1));
+      V v = load<V>(scale + i * kB + W * g) * u[i] + load<V>(bias + i * kB + W * g);
       v = v < lo ? lo : v;
       v = hi < v ? hi : v;
-      store(input + i * kB + kW * g, v);
+      store(input + i * kB + W * g, v);
     }
   }
 }
@@ -399,7 +409,7 @@ SIGMATUBE_INLINE void run_block_ops(const BlockOp* ops, std::size_t count, doubl
       case K::max: SIGMATUBE_ROW(const Vec bv = load(b + kW * g); acc[g] = acc[g] < bv ? bv : acc[g])  // std::max
         break;
       case K::pow: case K::function: {
-        double v[kB];
+        alignas(kWorkAlignment) double v[kB];
         SIGMATUBE_ROW(store(v + kW * g, acc[g]))
         if (op.kind == K::pow) {
           for (std::size_t e = 0; e < kB; ++e) v[e] = std::pow(v[e], b[e]);
@@ -432,7 +442,8 @@ typedef long long Mask __attribute__((vector_size(32)));  // −1 / 0 per lane, 
 struct BlockLayout {
   std::size_t n, m, term_size, block_rows, xs, sum, scale, bias, good;
   explicit BlockLayout(const ProgramStep& p)
-      : n(static_cast<std::size_t>(p.n)), m(static_cast<std::size_t>(p.m)), term_size(kW * (n + m + m * n)) {
+      : n(static_cast<std::size_t>(p.n)), m(static_cast<std::size_t>(p.m)),
+        term_size(kTermWidth * (n + m + m * n)) {
     xs = static_cast<std::size_t>(p.rows);
     sum = xs + n;
     scale = sum + n;
@@ -445,18 +456,34 @@ struct BlockLayout {
   const double* block(const double* work, std::size_t k) const { return work + 3 * term_size + k * block_rows * kB; }
 };
 
-template <int M>
+// The workspace starts at the first kWorkAlignment-byte boundary of the
+// caller's array (program_blocks_work_size leaves room for it).
+template <class T>
+SIGMATUBE_INLINE T* aligned_work(T* work) {
+  const std::uintptr_t at = reinterpret_cast<std::uintptr_t>(work);
+  return reinterpret_cast<T*>((at + kWorkAlignment - 1) & ~static_cast<std::uintptr_t>(kWorkAlignment - 1));
+}
+
+// The feedback law in vectors VI (four or eight lanes), the programs and the
+// stage combinations in four-lane vectors (eight accumulator chains per row).
+template <class VI, int M>
 SIGMATUBE_INLINE void program_step_blocks(std::size_t L, double t, double h, const StageTerms& sa, const StageTerms& sb,
                                           const StageTerms& sc, const ProgramStep& p, double bound, double* work) {
   const BlockLayout layout(p);
+  work = aligned_work(work);
   const int n = p.n;
   const double* ta = broadcast_terms(sa, n, M, work);
   const double* tb = broadcast_terms(sb, n, M, work + layout.term_size);
   const double* tc = broadcast_terms(sc, n, M, work + 2 * layout.term_size);
   const Vec half = broadcast(0.5 * h), sixth = broadcast(h / 6.0), hv = broadcast(h), two = broadcast(2.0);
   const Vec high = broadcast(bound), low = broadcast(-bound);
-  const double stage_time[4] = {t, t + 0.5 * h, t + 0.5 * h, t + h};
   const double* stage_terms[4] = {ta, tb, tb, tc};
+  // The input limits and the stage times pre-broadcast too, once per step
+  // rather than once per block and vector.
+  alignas(kWorkAlignment) double limits[2 * (M > 0 ? M : 1) * kTermWidth], stage_time[4 * kTermWidth];
+  for (int i = 0; i < 2 * M; ++i) broadcast_term(i % 2 ? p.high[i / 2] : p.low[i / 2], limits + kTermWidth * i);
+  const double times[4] = {t, t + 0.5 * h, t + 0.5 * h, t + h};
+  for (int s = 0; s < 4; ++s) broadcast_term(times[s], stage_time + kTermWidth * s);
 
   for (std::size_t k = 0; k < layout.blocks(L); ++k) {
     double* w = layout.block(work, k);
@@ -468,8 +495,8 @@ SIGMATUBE_INLINE void program_step_blocks(std::size_t L, double t, double h, con
     const double* bias = w + layout.bias * kB;
     for (int j = 0; j < n; ++j) copy_row(xs + j * kB, state + j * kB);
     for (int s = 0; s < 4; ++s) {
-      SIGMATUBE_ROW(store(w + kW * g, broadcast(stage_time[s])))
-      block_inputs<M>(n, state, stage_terms[s], p.feedback, scale, bias, p.low, p.high, input);
+      SIGMATUBE_ROW(store(w + kW * g, load(stage_time + kTermWidth * s)))
+      block_inputs<VI, M>(n, state, stage_terms[s], p.feedback, scale, bias, limits, input);
       run_block_ops(p.ops, p.op_count, w);
       // The stage combinations of integrate_rk4: y = x + (h/2 | h/2 | h)·k and
       // x + h/6·(((k1 + 2·k2) + 2·k3) + k4).
@@ -500,11 +527,12 @@ SIGMATUBE_INLINE void program_step_blocks(std::size_t L, double t, double h, con
 
 std::size_t program_blocks_work_size(std::size_t L, const ProgramStep& p) {
   const BlockLayout layout(p);
-  return 3 * layout.term_size + layout.blocks(L) * layout.block_rows * kB;
+  return 3 * layout.term_size + layout.blocks(L) * layout.block_rows * kB + kWorkAlignment / sizeof(double) - 1;
 }
 
 void program_blocks_load(std::size_t L, const double* x, const ProgramStep& p, double* work) {
   const BlockLayout layout(p);
+  work = aligned_work(work);
   const std::size_t rows = static_cast<std::size_t>(p.rows), n = layout.n, m = layout.m;
   for (std::size_t k = 0; k < layout.blocks(L); ++k) {
     double* w = layout.block(work, k);
@@ -528,6 +556,7 @@ void program_blocks_load(std::size_t L, const double* x, const ProgramStep& p, d
 
 void program_blocks_store(std::size_t L, const ProgramStep& p, const double* work, double* x, std::uint8_t* ok) {
   const BlockLayout layout(p);
+  work = aligned_work(work);
   for (std::size_t k = 0; k < layout.blocks(L); ++k) {
     const double* w = layout.block(work, k);
     const std::size_t l = k * kB, valid = std::min(kB, L - l);
@@ -541,16 +570,40 @@ void program_blocks_store(std::size_t L, const ProgramStep& p, const double* wor
   }
 }
 
+namespace {
+template <class VI>
+SIGMATUBE_INLINE void program_step_inputs_in(std::size_t L, double t, double h, const StageTerms& a, const StageTerms& b,
+                                             const StageTerms& c, const ProgramStep& p, double bound, double* work) {
+  switch (p.m) {
+    case 0: program_step_blocks<VI, 0>(L, t, h, a, b, c, p, bound, work); break;
+    case 1: program_step_blocks<VI, 1>(L, t, h, a, b, c, p, bound, work); break;
+    case 2: program_step_blocks<VI, 2>(L, t, h, a, b, c, p, bound, work); break;
+    case 3: program_step_blocks<VI, 3>(L, t, h, a, b, c, p, bound, work); break;
+    default: program_step_blocks<VI, 4>(L, t, h, a, b, c, p, bound, work); break;
+  }
+}
 SIGMATUBE_LANE_TARGETS
+void program_rk4_step_vec4(std::size_t L, double t, double h, const StageTerms& a, const StageTerms& b,
+                           const StageTerms& c, const ProgramStep& p, double bound, double* work) {
+  program_step_inputs_in<Vec4>(L, t, h, a, b, c, p, bound, work);
+}
+#if SIGMATUBE_AVX512_KERNELS
+SIGMATUBE_AVX512_TARGET
+void program_rk4_step_vec8(std::size_t L, double t, double h, const StageTerms& a, const StageTerms& b,
+                           const StageTerms& c, const ProgramStep& p, double bound, double* work) {
+  program_step_inputs_in<Vec8>(L, t, h, a, b, c, p, bound, work);
+}
+#endif
+}  // namespace
+
 void program_rk4_step(std::size_t L, double t, double h, const StageTerms& a, const StageTerms& b, const StageTerms& c,
                       const ProgramStep& p, double bound, double* work) {
-  switch (p.m) {
-    case 0: program_step_blocks<0>(L, t, h, a, b, c, p, bound, work); break;
-    case 1: program_step_blocks<1>(L, t, h, a, b, c, p, bound, work); break;
-    case 2: program_step_blocks<2>(L, t, h, a, b, c, p, bound, work); break;
-    case 3: program_step_blocks<3>(L, t, h, a, b, c, p, bound, work); break;
-    default: program_step_blocks<4>(L, t, h, a, b, c, p, bound, work); break;
-  }
+#if SIGMATUBE_AVX512_KERNELS
+  if (avx512())
+    program_rk4_step_vec8(L, t, h, a, b, c, p, bound, work);
+  else
+#endif
+    program_rk4_step_vec4(L, t, h, a, b, c, p, bound, work);
 }
 
 }  // namespace sigmatube::model::lanes

@@ -6,8 +6,9 @@
 // multi-versioning (SIGMATUBE_LANE_TARGETS): once for AVX2 and once for the
 // x86-64 baseline (SSE2). The loader picks the version for the CPU it runs on
 // (GNU ifunc), so one binary uses 4-wide AVX2 where present and stays correct
-// elsewhere. The built-in HCW whole-step kernel has a third, AVX-512 version
-// with eight lanes per vector (hcw_rk4_step picks it at run time).
+// elsewhere. The whole-step kernels have a third, AVX-512 version with eight
+// lanes per vector (hcw_rk4_step and program_rk4_step pick it at run time; the
+// lane programs' version runs their feedback law eight lanes wide).
 //
 // Bit-identical on every CPU: the AVX2 and AVX-512 versions do not enable FMA, so no
 // multiply–add is contracted, and both versions perform the IEEE operations of
@@ -29,10 +30,10 @@
 namespace sigmatube::model::lanes {
 
 /// Name of the instruction set the lane kernels run with on this CPU
-/// ("avx512f (HCW whole-step kernel), avx2", "avx2" or "x86-64 baseline").
+/// ("avx512f (whole-step kernels), avx2", "avx2" or "x86-64 baseline").
 const char* active_target();
-/// The built-in HCW whole-step kernel also has an AVX-512 version (eight lanes
-/// per vector, no FMA), used where the CPU has AVX-512F unless switched off here
+/// The whole-step kernels also have AVX-512 versions (eight lanes per vector,
+/// no FMA), used where the CPU has AVX-512F unless switched off here
 /// (for checks: the results are the same bits either way).
 void allow_avx512(bool on);
 

@@ -8,6 +8,7 @@
 #include <cmath>
 #include <cstdio>
 #include <limits>
+#include <optional>
 #include <sstream>
 #include <stdexcept>
 
@@ -18,8 +19,12 @@
 namespace sigmatube::montecarlo {
 namespace {
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
-// Fixed number of chunks in flight: the merge order never depends on the thread count.
-constexpr long long kChunksPerWave = 16;
+// Chunks in flight per wave. The partial accumulators are merged into the total
+// one by one in chunk order, so the wave size changes no result (and the thread
+// count none either); it only sets how often the threads meet: with 64 chunks
+// of 32 runs, two threads meet once per 2048 runs instead of once per 512.
+constexpr long long kChunksPerWave = 64;
+using RowMajor = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
 
 struct Partial {
   explicit Partial(const std::vector<constraints::Constraint>& c, const Eigen::VectorXd& times, int n_out, long long max_n,
@@ -103,14 +108,16 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
 
   Partial total(constraints, times, n_outputs, runs, columns);
   const long long n_chunks = (runs + chunk - 1) / chunk;
+  // The wave's buffers live across waves (resized only for a shorter last wave),
+  // so that megabytes of outputs are not allocated and page-faulted per wave.
+  RowMajor wave_outputs;
+  std::vector<std::uint8_t> wave_ok;
+  Eigen::MatrixXd wave_xi;
   for (long long wave = 0; wave < n_chunks; wave += kChunksPerWave) {
     const long long in_wave = std::min(kChunksPerWave, n_chunks - wave);
     // With a row runner the whole wave is run first (possibly over ranks);
     // the chunks below then only read their rows.
     const long long wave_begin = wave * chunk, wave_end = std::min(runs, (wave + in_wave) * chunk);
-    Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> wave_outputs;
-    std::vector<std::uint8_t> wave_ok;
-    Eigen::MatrixXd wave_xi;
     if (run_options.run_rows) {
       const Eigen::Index wave_rows = wave_end - wave_begin;
       wave_xi.resize(wave_rows, d);
@@ -126,22 +133,25 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
       wave_ok.assign(static_cast<std::size_t>(wave_rows), 0);
       run_options.run_rows(wave_begin, wave_end, wave_xi, wave_outputs.data(), wave_ok.data());
     }
-    std::vector<Partial> partial;
-    partial.reserve(static_cast<std::size_t>(in_wave));
-    for (long long w = 0; w < in_wave; ++w) partial.emplace_back(constraints, times, n_outputs, runs, columns);
+    // Each chunk's accumulators are made by the thread that fills them.
+    std::vector<std::optional<Partial>> partial(static_cast<std::size_t>(in_wave));
     parallel_for(static_cast<std::size_t>(in_wave), run_options.threads, [&](std::size_t w) {
-      Partial& p = partial[w];
+      Partial& p = partial[w].emplace(constraints, times, n_outputs, runs, columns);
       const long long begin = (wave + static_cast<long long>(w)) * chunk;
       const long long end = std::min(runs, begin + chunk);
       const Eigen::Index rows = end - begin;
-      // Every row of Y is written below: a run's outputs, or NaN for a failed run
-      // (never read: the statistics take only the rows marked in `keep`).
-      Eigen::MatrixXd Y(rows, columns);
+      // The chunk's outputs, row-major as the runs write them: the wave's rows,
+      // or rows of its own filled run by run. A failed run's row is NaN (never
+      // read: the statistics take only the rows marked in `keep`).
+      RowMajor own;
+      if (!run_options.run_rows) own.resize(rows, columns);
+      double* const out_rows = run_options.run_rows ? wave_outputs.data() + (begin - wave_begin) * columns : own.data();
       Eigen::MatrixXd xi(rows, d);
       std::vector<std::uint8_t> keep(static_cast<std::size_t>(rows), 0), saturated_row(static_cast<std::size_t>(rows), 0);
-      std::vector<double> point(static_cast<std::size_t>(d)), outputs(static_cast<std::size_t>(columns));
+      std::vector<double> point(static_cast<std::size_t>(d));
       for (Eigen::Index r = 0; r < rows; ++r) {
         const long long sample = begin + r;
+        double* const row = out_rows + r * columns;
         bool ran = false;
         std::string error;
         if (run_options.run_rows) {
@@ -149,24 +159,20 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
           const Eigen::Index at = sample - wave_begin;
           xi.row(r) = wave_xi.row(at);
           ran = wave_ok[static_cast<std::size_t>(at)] != 0;
-          if (ran) {
-            Y.row(r) = wave_outputs.row(at);
-          } else {
+          if (!ran) {
             // Same run again, only for its message (failures are rare and deterministic).
             for (int j = 0; j < d; ++j) point[static_cast<std::size_t>(j)] = xi(r, j);
-            std::fill(outputs.begin(), outputs.end(), kNaN);
-            (void)run_sample(point.data(), sample, outputs.data(), &error);
+            std::fill(row, row + columns, kNaN);
+            (void)run_sample(point.data(), sample, row, &error);
           }
         } else {
           germ_point(families, options.seed, sample, point.data());
           for (int j = 0; j < d; ++j) xi(r, j) = point[static_cast<std::size_t>(j)];
-          std::fill(outputs.begin(), outputs.end(), kNaN);
-          ran = run_sample(point.data(), sample, outputs.data(), &error);
-          if (ran)
-            for (Eigen::Index c = 0; c < columns; ++c) Y(r, c) = outputs[static_cast<std::size_t>(c)];
+          std::fill(row, row + columns, kNaN);
+          ran = run_sample(point.data(), sample, row, &error);
         }
         if (!ran) {
-          Y.row(r).setConstant(kNaN);
+          std::fill(row, row + columns, kNaN);
           ++p.failed;
           if (static_cast<int>(p.failures.size()) < run_options.reported_failures) {
             p.failures.emplace_back(sample, error.empty() ? "run failed (no message)" : error);
@@ -175,11 +181,11 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
         }
         keep[static_cast<std::size_t>(r)] = 1;
         ++p.successful;
-        if (sample < kept) result.kept_outputs.row(sample) = Y.row(r);  // each run owns its row
+        if (sample < kept) result.kept_outputs.row(sample) = Eigen::Map<const Eigen::RowVectorXd>(row, columns);  // each run owns its row
         bool saturated = false;
         for (const auto& s : run_options.saturation) {
           for (Eigen::Index t = 0; t < T && !saturated; ++t) {
-            const double u = Y(r, t * n_outputs + s.output);
+            const double u = row[t * n_outputs + s.output];
             saturated = u < s.low || u > s.high;
           }
         }
@@ -187,36 +193,50 @@ MonteCarloResult run_monte_carlo(const casefile::MonteCarloOptions& options, con
         saturated_row[static_cast<std::size_t>(r)] = saturated ? 1 : 0;
       }
       if (p.successful == 0) return;
+      const Eigen::Map<const RowMajor> R(out_rows, rows, columns);
+      // Column-major for the statistics, which take the outputs of one report time as a block of columns.
+      const Eigen::MatrixXd Y = R;
       p.stats.add(Y, keep, begin);
-      // Two-pass moments over the chunk's successful runs.
+      // Two-pass moments over the chunk's successful runs, row after row (the
+      // sums of every column in run order), on the row-major rows.
       for (Eigen::Index r = 0; r < rows; ++r) {
-        if (keep[static_cast<std::size_t>(r)]) p.mean += Y.row(r).transpose();
+        if (keep[static_cast<std::size_t>(r)]) p.mean += R.row(r).transpose();
       }
       p.mean /= static_cast<double>(p.successful);
       for (Eigen::Index r = 0; r < rows; ++r) {
-        if (keep[static_cast<std::size_t>(r)]) p.m2 += (Y.row(r).transpose() - p.mean).cwiseAbs2();
+        if (keep[static_cast<std::size_t>(r)]) p.m2 += (R.row(r).transpose() - p.mean).cwiseAbs2();
       }
       if (surrogate) {
-        Eigen::MatrixXd xi_ok(p.successful, d), y_ok(p.successful, columns);
-        std::vector<std::uint8_t> saturated_ok(static_cast<std::size_t>(p.successful), 0);
-        Eigen::Index k = 0;
-        for (Eigen::Index r = 0; r < rows; ++r) {
-          if (!keep[static_cast<std::size_t>(r)]) continue;
-          xi_ok.row(k) = xi.row(r);
-          y_ok.row(k) = Y.row(r);
-          saturated_ok[static_cast<std::size_t>(k)] = saturated_row[static_cast<std::size_t>(r)];
-          ++k;
+        // The successful runs' points and outputs (the chunk's own when all ran).
+        const bool all = p.successful == rows;
+        Eigen::MatrixXd xi_ok, y_ok;
+        std::vector<std::uint8_t> saturated_ok;
+        if (!all) {
+          xi_ok.resize(p.successful, d);
+          y_ok.resize(p.successful, columns);
+          saturated_ok.assign(static_cast<std::size_t>(p.successful), 0);
+          Eigen::Index k = 0;
+          for (Eigen::Index r = 0; r < rows; ++r) {
+            if (!keep[static_cast<std::size_t>(r)]) continue;
+            xi_ok.row(k) = xi.row(r);
+            y_ok.row(k) = R.row(r);
+            saturated_ok[static_cast<std::size_t>(k)] = saturated_row[static_cast<std::size_t>(r)];
+            ++k;
+          }
         }
+        const Eigen::MatrixXd& xs = all ? xi : xi_ok;
+        const Eigen::MatrixXd& ys = all ? Y : y_ok;
         Eigen::MatrixXd values(p.successful, columns);
-        surrogate(xi_ok, values);
+        surrogate(xs, values);
         if (values.rows() != p.successful || values.cols() != columns) {
           throw std::logic_error("run_monte_carlo: surrogate returned values of the wrong shape");
         }
-        for (Eigen::Index c = 0; c < columns; ++c) p.squared_error[c] += (values.col(c) - y_ok.col(c)).squaredNorm();
-        add_paired_runs(constraints, times, n_outputs, y_ok, values, saturated_ok, p.paired);
+        for (Eigen::Index c = 0; c < columns; ++c) p.squared_error[c] += (values.col(c) - ys.col(c)).squaredNorm();
+        add_paired_runs(constraints, times, n_outputs, ys, values, all ? saturated_row : saturated_ok, p.paired);
       }
     });
-    for (auto& p : partial) {
+    for (auto& slot : partial) {
+      Partial& p = *slot;
       total.stats.merge(p.stats);
       merge_moments(total.successful, total.mean, total.m2, p.successful, p.mean, p.m2);
       total.successful += p.successful;

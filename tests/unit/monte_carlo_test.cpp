@@ -3,11 +3,14 @@
 // surrogate error are known in closed form.
 #include "sigmatube/montecarlo/monte_carlo.h"
 
+#include "sigmatube/core/running_moments.h"
+
 #include <gtest/gtest.h>
 
 #include <boost/math/distributions/normal.hpp>
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 
 namespace sigmatube::montecarlo {
 namespace {
@@ -166,6 +169,124 @@ TEST(MonteCarlo, ValidationRmseMatchesAKnownSurrogateError) {
   EXPECT_LT(r.validation_rmse[1], 1e-14);
   std::printf("validation RMSE y %.6f (closed form %.6f), relative %.6f\n", r.validation_rmse[0], 0.01 * std::sqrt(3.0),
               r.validation_relative_rmse[0]);
+}
+
+// The accumulation order the header documents, written out serially: runs in
+// chunks of `chunk`, each chunk's mean and M2 by two passes over its successful
+// runs in run order, chunks folded in by Chan et al.'s merge in chunk order.
+// The driver must give exactly these bits, however many chunks a wave holds and
+// whichever thread fills a chunk.
+struct ReferenceMoments {
+  Eigen::MatrixXd mean, std;  // [T, n_out] as MonteCarloResult
+};
+ReferenceMoments reference_moments(long long runs, long long chunk, bool fail_some) {
+  const Eigen::Index columns = 15;
+  long long n = 0;
+  Eigen::VectorXd mean = Eigen::VectorXd::Zero(columns), m2 = Eigen::VectorXd::Zero(columns);
+  for (long long begin = 0; begin < runs; begin += chunk) {
+    const long long end = std::min(runs, begin + chunk);
+    std::vector<Eigen::VectorXd> ys;
+    for (long long i = begin; i < end; ++i) {
+      if (fail_some && i % 97 == 5) continue;
+      double xi[3];
+      Eigen::VectorXd y(columns);
+      germ_point(kFamilies, 99, i, xi);
+      model(xi, y.data());
+      ys.push_back(y);
+    }
+    if (ys.empty()) continue;
+    Eigen::VectorXd chunk_mean = Eigen::VectorXd::Zero(columns), chunk_m2 = Eigen::VectorXd::Zero(columns);
+    for (const auto& y : ys) chunk_mean += y;
+    chunk_mean /= static_cast<double>(ys.size());
+    for (const auto& y : ys) chunk_m2 += (y - chunk_mean).cwiseAbs2();
+    const long long nb = static_cast<long long>(ys.size());
+    merge_moments(n, mean, m2, nb, chunk_mean, chunk_m2);
+    n += nb;
+  }
+  ReferenceMoments out{Eigen::MatrixXd(5, 3), Eigen::MatrixXd(5, 3)};
+  for (int t = 0; t < 5; ++t)
+    for (int o = 0; o < 3; ++o) {
+      out.mean(t, o) = mean[t * 3 + o];
+      out.std(t, o) = std::sqrt(m2[t * 3 + o] / (static_cast<double>(n) - 1.0));
+    }
+  return out;
+}
+
+// 7 450 runs in chunks of 50: 149 chunks, more than two waves of chunks, the
+// last chunk short; every 97th run fails. Both paths of the driver (run by run,
+// and a row runner filling whole waves), on 1 and 2 threads, with a surrogate
+// to validate against.
+TEST(MonteCarlo, MomentsFollowTheDocumentedOrderOverManyWavesBitForBit) {
+  constexpr long long kRuns = 7450, kChunk = 50;
+  const ReferenceMoments expected = reference_moments(kRuns, kChunk, true);
+  const SurrogateEvaluator surrogate = [](const Eigen::MatrixXd& xi, Eigen::MatrixXd& values) {
+    for (Eigen::Index i = 0; i < xi.rows(); ++i) {
+      double out[15];
+      const Eigen::VectorXd point = xi.row(i).transpose();
+      model(point.data(), out);
+      for (int c = 0; c < 15; ++c) values(i, c) = out[c] + 0.05 * xi(i, 1);
+    }
+  };
+  const RunSample run_sample = [](const double* xi, long long sample, double* out, std::string* error) {
+    if (sample % 97 == 5) {
+      *error = "step size underflow in run " + std::to_string(sample);
+      return false;
+    }
+    model(xi, out);
+    return true;
+  };
+  std::vector<MonteCarloResult> results;
+  for (const bool rows : {false, true}) {
+    for (const int threads : {1, 2}) {
+      casefile::MonteCarloOptions options;
+      options.runs = kRuns;
+      options.seed = 99;
+      MonteCarloRunOptions run_options;
+      run_options.threads = threads;
+      run_options.chunk_size = kChunk;
+      run_options.kept_runs = 10;
+      run_options.saturation = {{2, -0.15, 0.15}};
+      if (rows) {
+        run_options.run_rows = [&](long long begin, long long end, const Eigen::MatrixXd& xi, double* outputs,
+                                   std::uint8_t* ok) {
+          ASSERT_EQ(xi.rows(), end - begin);
+          for (long long i = begin; i < end; ++i) {
+            const Eigen::VectorXd point = xi.row(i - begin).transpose();
+            std::string error;
+            ok[i - begin] = run_sample(point.data(), i, outputs + (i - begin) * 15, &error) ? 1 : 0;
+          }
+        };
+      }
+      const auto constraints = make_constraints();
+      results.push_back(run_monte_carlo(options, kFamilies, kTimes, 3, constraints, run_sample, run_options, surrogate));
+    }
+  }
+  for (const auto& r : results) {
+    // Samples 5, 102, …, 7381 fail: ⌈(7450 − 5)/97⌉ = 77.
+    EXPECT_EQ(r.failed_runs, 77);
+    EXPECT_EQ(std::memcmp(r.mean.data(), expected.mean.data(), sizeof(double) * 15), 0);
+    EXPECT_EQ(std::memcmp(r.std.data(), expected.std.data(), sizeof(double) * 15), 0);
+    const auto& first = results.front();
+    EXPECT_EQ(r.validation_rmse, first.validation_rmse);
+    EXPECT_EQ(r.validation_rmse_by_time, first.validation_rmse_by_time);
+    ASSERT_EQ(r.paired.size(), first.paired.size());
+    for (std::size_t k = 0; k < r.paired.size(); ++k) {
+      EXPECT_EQ(r.paired[k].both, first.paired[k].both);
+      EXPECT_EQ(r.paired[k].model_only, first.paired[k].model_only);
+      EXPECT_EQ(r.paired[k].surrogate_only, first.paired[k].surrogate_only);
+    }
+    EXPECT_EQ(r.saturated_runs, first.saturated_runs);
+    EXPECT_EQ(r.violations.constraints[0].clearance_mean, first.violations.constraints[0].clearance_mean);
+    EXPECT_EQ(r.violations.constraints[1].clearance_quantile, first.violations.constraints[1].clearance_quantile);
+    EXPECT_EQ(r.first_failures, first.first_failures);
+    EXPECT_TRUE(std::isnan(r.kept_outputs(5, 0)));
+    EXPECT_EQ(std::memcmp(r.kept_outputs.data(), first.kept_outputs.data(), sizeof(double) * 5), 0);
+  }
+  // The surrogate's error is 0.05 ξ₂ on every output: RMSE 0.05·√(mean ξ₂²) over
+  // the successful runs; mean ξ₂² = 1 within ±0.066 (4 sd: sd(ξ₂²)/√n = √2/√7373,
+  // closed form for a standard normal), so RMSE within 0.05·(√1.066 − 1) ≈ 0.05·0.033.
+  constexpr double kRmseTolerance = 0.05 * 0.033;
+  EXPECT_NEAR(results.front().validation_rmse[0], 0.05, kRmseTolerance);
 }
 
 }  // namespace

@@ -44,7 +44,7 @@ class ModelRunner {
 
  private:
   void run_block(const Eigen::MatrixXd& points, long long first, std::size_t begin, std::size_t end, double* rows,
-                 bool rethrow) const;
+                 std::size_t stride, std::uint8_t* ok, bool rethrow) const;
 
   const LoadedCase& loaded_;
   model::BatchPropagator batch_;

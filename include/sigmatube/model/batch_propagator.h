@@ -40,12 +40,13 @@ class BatchPropagator {
 
   /// True when the batched path applies (rk4, or dopri5 through model/lane_dopri5.h).
   bool supported() const { return supported_; }
-  /// Instruction set the lane kernels run with on this CPU ("avx512f (HCW whole-step
-  /// kernel), avx2", "avx2" or "x86-64 baseline").
+  /// Instruction set the lane kernels run with on this CPU ("avx512f (whole-step
+  /// kernels), avx2", "avx2" or "x86-64 baseline").
   static const char* instruction_set();
-  /// Lets the built-in HCW whole-step kernel use its AVX-512 version where the
-  /// CPU has AVX-512F (the default) or keeps it at AVX2; the same bits either
-  /// way (process-wide; for checks and measurements).
+  /// Lets the whole-step kernels (built-in HCW; the lane programs' feedback law)
+  /// use their AVX-512 versions where the CPU has AVX-512F (the default) or keeps
+  /// them at AVX2; the same bits either way (process-wide; for checks and
+  /// measurements; not while another thread runs a batch).
   static void allow_avx512(bool on);
   /// True when an expression model's right-hand sides run as lane programs.
   bool compiled_expressions() const { return !programs_.empty(); }

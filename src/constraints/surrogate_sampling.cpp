@@ -31,13 +31,14 @@ ViolationResults sample_surrogate(const std::vector<Constraint>& list, const exp
   if (list.empty()) return {};
   const int d = germ.dimension();
   const CompactOutputs compact = compact_outputs(list, surrogate.n_times, surrogate.n_outputs);
+  const expansion::PackedColumns packed(surrogate.coefficients, compact.columns);  // once for all chunks
   const CounterRng rng(seed ^ kSurrogateStream);
   std::atomic<long long> sampled{0};
   return stream_violation_statistics(
       compact.constraints, times_in_seconds, static_cast<int>(compact.outputs.size()), samples, kSurrogateChunk, threads,
       [&](long long begin, long long end, Eigen::MatrixXd& Y) {
         const Eigen::Index n = static_cast<Eigen::Index>(end - begin);
-        surrogate.evaluate(germ::germ_points(germ, germ::standard_normal_points(rng, begin, n, d)), Y, compact.columns);
+        surrogate.evaluate(germ::germ_points(germ, germ::standard_normal_points(rng, begin, n, d)), packed, Y);
         const long long done = sampled += n;
         if (progress) progress(done);
       });
@@ -61,6 +62,7 @@ SurrogateSampling sample_surrogate_to_target(const std::vector<Constraint>& list
   target.relative = options.sampling_relative_error;
   target.absolute = options.sampling_absolute_error;
   const CompactOutputs compact = compact_outputs(list, surrogate.n_times, surrogate.n_outputs);
+  const expansion::PackedColumns packed(surrogate.coefficients, compact.columns);  // once for all chunks
   std::atomic<long long> sampled{0};
   const PrecisionSampling p = stream_to_precision(
       compact.constraints, times_in_seconds, static_cast<int>(compact.outputs.size()), target, kSurrogateChunk, threads,
@@ -68,7 +70,7 @@ SurrogateSampling sample_surrogate_to_target(const std::vector<Constraint>& list
         const ScrambledSobol sobol(d, seed ^ kSurrogateStream, static_cast<std::uint64_t>(replicate));
         Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> z(count, d);
         sobol.normals(static_cast<std::uint64_t>(first), static_cast<std::size_t>(count), z.data());
-        surrogate.evaluate(germ::germ_points(germ, z), Y, compact.columns);
+        surrogate.evaluate(germ::germ_points(germ, z), packed, Y);
         const long long done = sampled += count;
         if (progress) progress(done);
       });

@@ -359,10 +359,40 @@ SIGMATUBE_INLINE double* broadcast_terms(const StageTerms& s, int n, int m, doub
 template <class V, int M>
 SIGMATUBE_INLINE void block_inputs(int n, const double* state, const double* terms, bool feedback, const double* scale,
                                    const double* bias, const double* limits, double* input) {
-  constexpr std::size_t W = kWidth<V>;
+  constexpr std::size_t W = kWidth<V>, G = kB / W;
   const V zero = {};
   const double* gain = terms + kTermWidth * static_cast<std::size_t>(n + M);
-  for (std::size_t g = 0; g < kB / W; ++g) {
+  if constexpr (G * (M > 0 ? M : 1) <= 16) {
+    // Few vectors per row (eight-lane vectors): all M·G sums in registers, the
+    // states outermost, so that each term is loaded once and M·G chains overlap.
+    V u[M > 0 ? M : 1][G];
+    for (int i = 0; i < M; ++i)
+      for (std::size_t g = 0; g < G; ++g) u[i][g] = load<V>(terms + kTermWidth * static_cast<std::size_t>(n + i));
+    for (int j = 0; j < n && feedback; ++j) {
+      const V ref = load<V>(terms + kTermWidth * static_cast<std::size_t>(j));
+      V k[M > 0 ? M : 1];
+      for (int i = 0; i < M; ++i) k[i] = load<V>(gain + kTermWidth * static_cast<std::size_t>(i * n + j));
+      for (std::size_t g = 0; g < G; ++g) {
+        const V e = load<V>(state + j * kB + W * g) - ref;
+        for (int i = 0; i < M; ++i) {
+          const V term = k[i] * e;
+          u[i][g] -= e != zero ? term : zero;
+        }
+      }
+    }
+    for (int i = 0; i < M; ++i) {
+      const V lo = load<V>(limits + kTermWidth * static_cast<std::size_t>(2 * i));
+      const V hi = load<V>(limits + kTermWidth * static_cast<std::size_t>(2 * i + 1));
+      for (std::size_t g = 0; g < G; ++g) {
+        V v = load<V>(scale + i * kB + W * g) * u[i][g] + load<V>(bias + i * kB + W * g);
+        v = v < lo ? lo : v;
+        v = hi < v ? hi : v;
+        store(input + i * kB + W * g, v);
+      }
+    }
+    return;
+  }
+  for (std::size_t g = 0; g < G; ++g) {
     V u[M > 0 ? M : 1];
     for (int i = 0; i < M; ++i) u[i] = load<V>(terms + kTermWidth * static_cast<std::size_t>(n + i));
     for (int j = 0; j < n && feedback; ++j) {

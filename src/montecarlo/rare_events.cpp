@@ -28,9 +28,12 @@ RareEventEstimate rare_event_estimate(const germ::Germ& germ, const expansion::S
   const int d = germ.dimension();
   // Path-minimum clearance of the surrogate at standard-normal points z (rows),
   // from the constraint's own outputs only ([N, T·outputs read]): the screens never
-  // fill a full-width matrix (20 000 × T·n_out doubles).
+  // fill a full-width matrix (20 000 × T·n_out doubles). The constraint's
+  // coefficient columns are packed once for all screens and the many one-point
+  // evaluations of the design-point search.
   const constraints::CompactOutputs compact = constraints::compact_outputs({constraint}, surrogate.n_times, surrogate.n_outputs);
   const int n_read = static_cast<int>(compact.outputs.size());
+  const expansion::PackedColumns packed(surrogate.coefficients, compact.columns);
   // Rows go in blocks of kScreenBlock, so the values never take more than
   // kScreenBlock × T·outputs read doubles (each row's minimum is its own).
   const auto path_minimum = [&](const Eigen::MatrixXd& z) {
@@ -39,7 +42,7 @@ RareEventEstimate rare_event_estimate(const germ::Germ& germ, const expansion::S
     Eigen::MatrixXd values;
     for (Eigen::Index start = 0; start < points.rows(); start += kScreenBlock) {
       const Eigen::Index rows = std::min<Eigen::Index>(kScreenBlock, points.rows() - start);
-      surrogate.evaluate(points.middleRows(start, rows), values, compact.columns);
+      surrogate.evaluate(points.middleRows(start, rows), packed, values);
       constraints::ViolationStatistics::path_minimum(compact.constraints.front(), times, n_read, values,
                                                      minimum.segment(start, rows));
     }

@@ -17,7 +17,10 @@
 //                  baseline bench/numpy_baseline.py (same model, plan, gain, RK4).
 // (c) scaling      Monte Carlo wall time on 1 thread / on 2 threads.
 // (d) sampling     surrogate evaluation flop rate (2·N·P·columns per batch) as a
-//                  fraction of Eigen's dense matrix-multiply rate, one thread each.
+//                  fraction of a dense matrix-multiply rate, one thread each:
+//                  Eigen's in this build (x86-64 baseline) and Eigen's built with
+//                  -mavx2 -mfma (bench/avx2_gemm_reference.cpp, the machine's
+//                  rate with AVX2 enabled).
 // (e) memory       peak resident set (getrusage ru_maxrss) of a separate process
 //                  computing a path probability from 10⁷ surrogate samples with
 //                  the pipeline's streaming code (app::analyze_case).
@@ -48,6 +51,7 @@
 #include "sigmatube/constraints/violation_statistics.h"
 #include "sigmatube/core/counter_rng.h"
 #include "sigmatube/core/parallel.h"
+#include "sigmatube/expansion/basis_product.h"
 #include "sigmatube/expansion/surrogate.h"
 #include "sigmatube/model/batch_propagator.h"
 #include "sigmatube/model/controller.h"
@@ -488,59 +492,92 @@ void dopri5_lanes_rate(long long runs) {
 }
 
 // ------------------------------------------------------------------ (d)
+// Repeats `step` until it has used at least two CPU-seconds of this thread; the
+// number of calls per CPU-second.
+template <class Step>
+double calls_per_cpu_second(Step&& step) {
+  step();  // warm-up
+  int reps = 0;
+  const double c0 = thread_cpu();
+  double elapsed = 0.0;
+  do {
+    step();
+    ++reps;
+    elapsed = thread_cpu() - c0;
+  } while (elapsed < 2.0);
+  return reps / elapsed;
+}
+
+// The AVX2/FMA GEMM reference (bench/avx2_gemm_reference.cpp) on [m, k]·[k, n],
+// FLOP/s; 0 where the CPU lacks AVX2 or FMA or the program fails.
+double avx2_fma_gemm_rate(Eigen::Index m, Eigen::Index k, Eigen::Index n) {
+  __builtin_cpu_init();
+  if (!__builtin_cpu_supports("avx2") || !__builtin_cpu_supports("fma")) return 0.0;
+  const std::string command = std::string(SIGMATUBE_AVX2_GEMM) + " " + std::to_string(m) + " " + std::to_string(k) +
+                              " " + std::to_string(n);
+  double rate = 0.0;
+  if (FILE* pipe = popen(command.c_str(), "r")) {
+    char line[256];
+    if (std::fgets(line, sizeof line, pipe)) rate = std::atof(line);
+    pclose(pipe);
+  }
+  return rate;
+}
+
 void sampling_rate() {
-  std::cout << "\n(d) surrogate sampling vs Eigen matrix multiply, one thread  [load " << load_text() << "]\n";
+  std::cout << "\n(d) surrogate sampling vs matrix multiply, one thread  [load " << load_text() << "]\n";
   const app::LoadedCase loaded = app::load_case(kDemoCase);
   expansion::SurrogateSummary summary;
   const expansion::Surrogate s = build(loaded, 2, summary);
-  const Eigen::Index N = 20000;
+  const Eigen::Index N = 20000, P = s.basis_size(), J = s.coefficients.cols();
   const Eigen::MatrixXd points = germ_points(loaded, 0, N);
+  const double flops = 2.0 * static_cast<double>(N) * static_cast<double>(P) * static_cast<double>(J);
   Eigen::MatrixXd values;
-  s.evaluate(points, values);  // warm-up
-  int reps = 0;
-  double c0 = thread_cpu(), elapsed = 0.0;
-  do {
-    s.evaluate(points, values);
-    ++reps;
-    elapsed = thread_cpu() - c0;
-  } while (elapsed < 2.0);
-  const double flops = 2.0 * static_cast<double>(N) * s.basis_size() * static_cast<double>(s.coefficients.cols());
-  const double surrogate_rate = flops * reps / elapsed;
-
+  const auto surrogate_rate = [&] { return flops * calls_per_cpu_second([&] { s.evaluate(points, values); }); };
+  // The product alone, as Surrogate::evaluate runs it (blocks of 4096 rows).
+  const Eigen::MatrixXd psi = s.basis_matrix(points.topRows(4096));
+  const expansion::PackedColumns packed(s.coefficients);
+  Eigen::MatrixXd y(psi.rows(), J);
+  const double product_flops = 2.0 * static_cast<double>(psi.rows()) * static_cast<double>(P) * static_cast<double>(J);
+  const auto product_rate = [&] {
+    return product_flops * calls_per_cpu_second([&] { expansion::basis_product(psi, packed, y); });
+  };
   const Eigen::Index n = 512;
   const Eigen::MatrixXd A = Eigen::MatrixXd::Random(n, n), B = Eigen::MatrixXd::Random(n, n);
+  const expansion::PackedColumns packed_b(B);
   Eigen::MatrixXd C(n, n);
-  C.noalias() = A * B;  // warm-up
-  reps = 0;
-  c0 = thread_cpu();
-  do {
-    C.noalias() = A * B;
-    ++reps;
-    elapsed = thread_cpu() - c0;
-  } while (elapsed < 2.0);
-  const double gemm_rate = 2.0 * std::pow(static_cast<double>(n), 3) * reps / elapsed;
-  std::cout << "  demo surrogate: N = " << N << " points, P = " << s.basis_size() << ", " << s.coefficients.cols()
-            << " columns: " << fmt("%.3g", surrogate_rate / 1e9) << " GFLOP/s; Eigen " << n << "x" << n
-            << " GEMM: " << fmt("%.3g", gemm_rate / 1e9) << " GFLOP/s (" << fmt("%.3g", N / (flops * 1.0 / surrogate_rate) / 1e6)
-            << " M samples/s)\n";
-  add_row("(d) sampling rate / Eigen GEMM rate", 100.0 * surrogate_rate / gemm_rate, "", 50.0, true, " %");
-  // An AVX2/FMA GEMM for the machine's rate: NumPy's OpenBLAS on one thread
-  // (OPENBLAS_CORETYPE/OPENBLAS_L2_SIZE unset for this command only, so that it
-  // picks its kernel for this CPU).
-  const std::string command = std::string("env -u OPENBLAS_CORETYPE -u OPENBLAS_L2_SIZE OMP_NUM_THREADS=1 OPENBLAS_NUM_THREADS=1 ") +
-                              SIGMATUBE_PYTHON +
-                              " -c \"import numpy as np, time; n=1024; a=np.random.rand(n,n); b=np.random.rand(n,n); a@b; "
-                              "t=time.process_time(); r=0\nwhile time.process_time()-t<2: a@b; r+=1\n"
-                              "print(2*n**3*r/(time.process_time()-t))\"";
-  double blas_rate = 0.0;
-  if (FILE* pipe = popen(command.c_str(), "r")) {
-    char line[256];
-    if (std::fgets(line, sizeof line, pipe)) blas_rate = std::atof(line);
-    pclose(pipe);
+  const double cube = 2.0 * std::pow(static_cast<double>(n), 3);
+  const auto kernel_cube_rate = [&] { return cube * calls_per_cpu_second([&] { expansion::basis_product(A, packed_b, C); }); };
+
+  std::cout << "  demo surrogate: N = " << N << " points, P = " << P << ", " << J << " columns; basis product kernel "
+            << expansion::product_target_name() << " (GFLOP/s, 2·N·P·columns per evaluation)\n";
+  const double rate = surrogate_rate(), rate_product = product_rate(), rate_cube = kernel_cube_rate();
+  std::cout << "  " << expansion::product_target_name() << ": evaluation " << fmt("%.3g", rate / 1e9)
+            << " (" << fmt("%.3g", rate / flops * static_cast<double>(N) / 1e6) << " M samples/s), product alone "
+            << fmt("%.3g", rate_product / 1e9) << ", kernel " << n << "^3 " << fmt("%.3g", rate_cube / 1e9) << "\n";
+  double rate_avx2 = 0.0;
+  for (const auto target : {expansion::ProductTarget::avx2, expansion::ProductTarget::baseline}) {
+    expansion::set_product_target(target);
+    const char* name = expansion::product_target_name();
+    const double r = surrogate_rate(), rp = product_rate(), rc = kernel_cube_rate();
+    if (target == expansion::ProductTarget::avx2) rate_avx2 = r;
+    std::cout << "  " << name << " (forced): evaluation " << fmt("%.3g", r / 1e9) << ", product alone "
+              << fmt("%.3g", rp / 1e9) << ", kernel " << n << "^3 " << fmt("%.3g", rc / 1e9) << "\n";
   }
-  if (blas_rate > 0.0) {
-    std::cout << "  OpenBLAS (NumPy) 1024x1024 GEMM, one thread: " << fmt("%.3g", blas_rate / 1e9) << " GFLOP/s\n";
-    add_row("(d) sampling rate / OpenBLAS GEMM rate", 100.0 * surrogate_rate / blas_rate, "", 50.0, true, " %");
+  expansion::set_product_target(expansion::ProductTarget::automatic);
+
+  const double gemm_rate = cube * calls_per_cpu_second([&] { C.noalias() = A * B; });
+  std::cout << "  Eigen " << n << "^3 GEMM, this build (x86-64 baseline): " << fmt("%.3g", gemm_rate / 1e9) << " GFLOP/s\n";
+  add_row("(d) sampling rate / Eigen GEMM rate (this build)", 100.0 * rate / gemm_rate, "", 50.0, true, " %");
+  // The machine's rate with AVX2 enabled: Eigen built with -mavx2 -mfma.
+  const double avx2_cube = avx2_fma_gemm_rate(n, n, n), avx2_shape = avx2_fma_gemm_rate(N, P, J);
+  if (avx2_cube > 0.0) {
+    std::cout << "  Eigen GEMM built with -mavx2 -mfma: " << n << "^3 " << fmt("%.3g", avx2_cube / 1e9) << " GFLOP/s, "
+              << N << "x" << P << "x" << J << " " << fmt("%.3g", avx2_shape / 1e9) << " GFLOP/s\n";
+    add_row("(d) sampling rate / AVX2+FMA GEMM rate (512^3)", 100.0 * rate / avx2_cube,
+            fmt("%.3g", rate / 1e9) + " / " + fmt("%.3g", avx2_cube / 1e9) + " GFLOP/s", 50.0, true, " %");
+    add_row("(d) sampling rate, AVX2 kernel / AVX2+FMA GEMM rate (512^3)", 100.0 * rate_avx2 / avx2_cube,
+            fmt("%.3g", rate_avx2 / 1e9) + " / " + fmt("%.3g", avx2_cube / 1e9) + " GFLOP/s", 50.0, true, " %");
   }
 }
 

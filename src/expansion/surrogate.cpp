@@ -13,6 +13,7 @@
 #include "sigmatube/core/option_values.h"
 #include "sigmatube/design/sampling_design.h"
 #include "sigmatube/design/sparse_grid.h"
+#include "sigmatube/expansion/basis_product.h"
 #include "sigmatube/expansion/multi_index.h"
 #include "sigmatube/expansion/polynomial_basis.h"
 #include "sigmatube/expansion/pseudo_spectral_projection.h"
@@ -32,19 +33,25 @@ Eigen::MatrixXd Surrogate::basis_matrix(const Eigen::MatrixXd& points) const {
 }
 
 void Surrogate::evaluate(const Eigen::MatrixXd& points, Eigen::MatrixXd& values, const std::vector<int>& columns) const {
+  for (const int j : columns)
+    if (j < 0 || j >= coefficients.cols()) throw std::logic_error("Surrogate::evaluate: column out of range");
+  // The coefficient columns are packed once per call for the product
+  // (sigmatube/expansion/basis_product.h: the same bits on every CPU).
+  evaluate(points, PackedColumns(coefficients, columns), values);
+}
+
+void Surrogate::evaluate(const Eigen::MatrixXd& points, const PackedColumns& packed, Eigen::MatrixXd& values) const {
   if (points.cols() != dimension()) throw std::logic_error("Surrogate::evaluate: points have the wrong dimension");
-  Eigen::MatrixXd selected;
-  const Eigen::MatrixXd* c = &coefficients;
-  if (!columns.empty()) {
-    selected.resize(coefficients.rows(), static_cast<Eigen::Index>(columns.size()));
-    for (std::size_t j = 0; j < columns.size(); ++j) {
-      if (columns[j] < 0 || columns[j] >= coefficients.cols())
-        throw std::logic_error("Surrogate::evaluate: column out of range");
-      selected.col(static_cast<Eigen::Index>(j)) = coefficients.col(columns[j]);
-    }
-    c = &selected;
+  if (packed.rows() != basis_size()) throw std::logic_error("Surrogate::evaluate: packed columns of another surrogate");
+  values.resize(points.rows(), packed.cols());
+  if (points.rows() == 1) {
+    // One point (the design-point search of the rare-event screens): Eigen's
+    // matrix-vector product, as before the kernel, so that the search follows
+    // the same path bit for bit (its summation order differs from the kernel's
+    // in round-off; a search on a flat clearance can hinge on it).
+    values.noalias() = basis_matrix(points) * packed.unpacked();
+    return;
   }
-  values.resize(points.rows(), c->cols());
   // Blocks of rows keep Ψ small when a million samples are evaluated at once.
   constexpr Eigen::Index kBlockRows = 4096;
   Eigen::MatrixXd psi;
@@ -52,7 +59,7 @@ void Surrogate::evaluate(const Eigen::MatrixXd& points, Eigen::MatrixXd& values,
     const Eigen::Index rows = std::min(kBlockRows, points.rows() - start);
     psi.resize(rows, basis_size());
     basis_matrix_into(families, indices, points.middleRows(start, rows), psi);
-    values.middleRows(start, rows).noalias() = psi * (*c);
+    basis_product(psi, packed, values.middleRows(start, rows));
   }
 }
 

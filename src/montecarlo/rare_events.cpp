@@ -33,9 +33,12 @@ RareEventEstimate rare_event_estimate(const germ::Germ& germ, const expansion::S
   // but with one [N, n_out] block per report time holding only the constraint's
   // outputs (the others stay zero, as surrogate_outputs leaves them): the screens
   // never fill a full-width matrix (20 000 × T·n_out doubles).
+  // The constraint's coefficient columns are packed once for all screens and the
+  // many one-point evaluations of the design-point search.
+  const expansion::PackedColumns packed(surrogate.coefficients, columns);
   const auto path_minimum = [&](const Eigen::MatrixXd& z) {
     Eigen::MatrixXd values;
-    surrogate.evaluate(germ::germ_points(germ, z), values, columns);
+    surrogate.evaluate(germ::germ_points(germ, z), packed, values);
     Eigen::MatrixXd block = Eigen::MatrixXd::Zero(z.rows(), n_out);
     Eigen::VectorXd minimum = Eigen::VectorXd::Constant(z.rows(), std::numeric_limits<double>::infinity());
     Eigen::VectorXd c(z.rows());

@@ -3,6 +3,9 @@
 
 #include <gtest/gtest.h>
 
+#include <algorithm>
+#include <cmath>
+
 #include "python_reference.h"
 #include "sigmatube/core/counter_rng.h"
 #include "sigmatube/expansion/multi_index.h"
@@ -85,4 +88,74 @@ TEST(QuantileTube, OrderStatisticRuleOfViolationStatistics) {
   EXPECT_EQ(q(0, 0), 0.0);
   EXPECT_EQ(q(0, 1), 5.0);
   EXPECT_EQ(q(0, 2), 9.0);
+}
+
+namespace {
+
+// The reference for the selection: the whole column sorted by std::sort, then
+// x_(k), k = ⌊pN⌋ clamped to N − 1 (the rule of the header).
+std::vector<double> sorted_quantiles(const Eigen::VectorXd& column, const std::vector<double>& levels) {
+  std::vector<double> sorted(column.data(), column.data() + column.size());
+  std::sort(sorted.begin(), sorted.end());
+  const auto n = static_cast<long long>(sorted.size());
+  std::vector<double> q;
+  for (double p : levels)
+    q.push_back(sorted[static_cast<std::size_t>(std::clamp(static_cast<long long>(p * static_cast<double>(n)), 0LL, n - 1))]);
+  return q;
+}
+
+void expect_sorted_quantiles(const Eigen::MatrixXd& samples, const std::vector<double>& levels, const char* what) {
+  const Eigen::MatrixXd q = constraints::column_quantiles(samples, levels);
+  for (Eigen::Index c = 0; c < samples.cols(); ++c) {
+    const std::vector<double> expected = sorted_quantiles(samples.col(c), levels);
+    for (std::size_t l = 0; l < levels.size(); ++l)
+      EXPECT_EQ(q(c, static_cast<Eigen::Index>(l)), expected[l])
+          << what << ": N = " << samples.rows() << ", column " << c << ", level " << levels[l];
+  }
+}
+
+}  // namespace
+
+TEST(QuantileTube, SelectionEqualsTheSortedOrderStatistics) {
+  // Exact order statistics, so equality: random (normal, heavy-tailed), tied
+  // (few distinct values), constant columns, and sizes below and above the size
+  // from which the selection brackets with a sample; levels at both extremes,
+  // close pairs and the rule's clamp at p = 1.
+  const std::vector<double> levels_list[] = {
+      constraints::quantile_levels({1e-4, 1e-3}),
+      {0.0, 1e-6, 0.3, 0.3 + 1e-9, 0.5, 0.51, 1.0 - 1e-7, 1.0},
+  };
+  const CounterRng rng(987654321ULL);
+  std::uint64_t counter = 0;
+  for (const Eigen::Index n : {Eigen::Index{1}, Eigen::Index{7}, Eigen::Index{4095}, Eigen::Index{4097},
+                               Eigen::Index{10007}, Eigen::Index{50001}}) {
+    Eigen::MatrixXd samples(n, 5);
+    for (Eigen::Index i = 0; i < n; ++i) {
+      const double z = rng.normal(counter, 0), u = rng.uniform(counter, 1);
+      ++counter;
+      samples(i, 0) = z;                        // normal
+      samples(i, 1) = z / (u + 1e-3);           // heavy tails
+      samples(i, 2) = std::floor(4.0 * u);      // four tied values
+      samples(i, 3) = 2.5;                      // constant
+      samples(i, 4) = i % 3 == 0 ? -0.0 : 0.0;  // ties of signed zeros
+    }
+    for (const auto& levels : levels_list) expect_sorted_quantiles(samples, levels, "mixed");
+  }
+}
+
+TEST(QuantileTube, SelectionFallsBackWhenTheBracketsMiss) {
+  // A column whose values at the strided sample positions (i·N/s, s = ⌊N^(2/3)⌋:
+  // the sample the selection brackets from) are far above all others: every
+  // bracket drawn from that sample misses, and the fallback must give the
+  // sorted order statistics all the same. Also sorted and reversed columns.
+  const Eigen::Index n = 20011;
+  const auto s = static_cast<Eigen::Index>(std::cbrt(static_cast<double>(n) * static_cast<double>(n)));
+  Eigen::MatrixXd samples(n, 3);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    samples(i, 0) = static_cast<double>((i * 7919) % n) * 1e-3;
+    samples(i, 1) = static_cast<double>(i);
+    samples(i, 2) = static_cast<double>(n - i);
+  }
+  for (Eigen::Index i = 0; i < s; ++i) samples(i * n / s, 0) = 1e6 + static_cast<double>(i);
+  expect_sorted_quantiles(samples, constraints::quantile_levels({1e-3, 0.01}), "adversarial");
 }

@@ -14,6 +14,7 @@
 #include <Eigen/Dense>
 
 #include "sigmatube/casefile/case_options.h"
+#include "sigmatube/expansion/basis_product.h"
 #include "sigmatube/germ/family.h"
 
 // Layer expansion/ (DEVELOPERS.md: the pipeline, folder by folder).
@@ -43,6 +44,9 @@ struct Surrogate {
   /// `columns` non-empty, only those columns of C (in that order).
   void evaluate(const Eigen::MatrixXd& points, Eigen::MatrixXd& values,
                 const std::vector<int>& columns = {}) const;
+  /// The same for columns packed beforehand (PackedColumns of `coefficients`),
+  /// for callers that evaluate the same columns at many small sets of points.
+  void evaluate(const Eigen::MatrixXd& points, const PackedColumns& packed, Eigen::MatrixXd& values) const;
 
   Eigen::MatrixXd mean() const;  // [n_times, n_outputs]
   Eigen::MatrixXd std() const;   // [n_times, n_outputs]

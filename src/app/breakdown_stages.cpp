@@ -8,6 +8,7 @@
 
 #include "sigmatube/constraints/quantile_tube.h"
 #include "sigmatube/core/counter_rng.h"
+#include "sigmatube/expansion/basis_product.h"
 #include "sigmatube/expansion/grouped_sobol.h"
 #include "sigmatube/model/deterministic_tube.h"
 
@@ -109,8 +110,10 @@ void input_share_stage(const LoadedCase& loaded, const expansion::Surrogate& sur
   cov.gram = normal.solve(Eigen::MatrixXd::Identity(P, P));
   // Clearances of every constraint at every time, one time's outputs at a time.
   std::vector<Eigen::MatrixXd> clearances(loaded.constraints.size(), Eigen::MatrixXd(n, n_times));
+  Eigen::MatrixXd block(n, n_out);
   for (int t = 0; t < n_times; ++t) {
-    const Eigen::MatrixXd block = basis * surrogate.coefficients.middleCols(static_cast<Eigen::Index>(t) * n_out, n_out);
+    expansion::basis_product(
+        basis, expansion::PackedColumns(surrogate.coefficients, static_cast<Eigen::Index>(t) * n_out, n_out), block);
     Eigen::VectorXd c(n);
     for (std::size_t k = 0; k < loaded.constraints.size(); ++k) {
       loaded.constraints[k].clearance(block, r.time[static_cast<std::size_t>(t)], c);

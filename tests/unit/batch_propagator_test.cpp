@@ -188,53 +188,46 @@ TEST(BatchPropagator, FusedHcwStepMatchesStagewiseBitwise) {
   expect_fused_matches_stagewise(kSource + "/bench/cases/hcw-tracking/case.toml", {1, 6, 64});
 }
 
-// The AVX-512 version of the HCW whole-step kernel (eight lanes per vector) and
-// the four-lane AVX2/baseline version give the same bits (on a CPU without
-// AVX-512F both runs take the four-lane version).
-TEST(BatchPropagator, HcwStepSameBitsWithAndWithoutAvx512) {
-  const std::string path = kSource + "/bench/cases/hcw-tracking/case.toml";
+// Runs the same lanes with the AVX-512 kernels allowed and kept at AVX2 and
+// expects the same bits, every output and ok flag (on a CPU without AVX-512F
+// both runs take the four-lane versions). With `diverge`, lane 3 (where there is
+// one) starts beyond the divergence bound and must be flagged both times.
+void expect_same_bits_with_and_without_avx512(const std::string& path, const std::vector<int>& lane_counts,
+                                              bool diverge) {
   const app::LoadedCase loaded = app::load_case(path);
   const auto& cl = *loaded.closed_loop;
   const model::BatchPropagator batch(cl, loaded.options);
   const std::size_t width = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
-  for (const int lanes : {3, 13, 64}) {
-    const std::vector<model::Perturbation> perturbations = perturbations_for(loaded, lanes);
+  for (const int lanes : lane_counts) {
+    std::vector<model::Perturbation> perturbations = perturbations_for(loaded, lanes);
+    if (diverge && lanes > 3) perturbations[3].initial_offset[0] = 1e13;
     std::vector<double> a(width * static_cast<std::size_t>(lanes)), b(a.size());
     std::vector<std::uint8_t> ok_a(static_cast<std::size_t>(lanes)), ok_b(ok_a.size());
     batch.run(perturbations.data(), lanes, a.data(), width, ok_a.data());
     model::BatchPropagator::allow_avx512(false);
     batch.run(perturbations.data(), lanes, b.data(), width, ok_b.data());
     model::BatchPropagator::allow_avx512(true);
-    EXPECT_EQ(ok_a, ok_b) << lanes << " lanes";
-    EXPECT_EQ(std::memcmp(a.data(), b.data(), a.size() * sizeof(double)), 0) << lanes << " lanes";
+    EXPECT_EQ(ok_a, ok_b) << path << ", " << lanes << " lanes";
+    if (diverge && lanes > 3) EXPECT_EQ(ok_a[3], 0) << path;
+    EXPECT_EQ(std::memcmp(a.data(), b.data(), a.size() * sizeof(double)), 0) << path << ", " << lanes << " lanes";
   }
 }
 
+// The AVX-512 version of the HCW whole-step kernel (eight lanes per vector) and
+// the four-lane AVX2/baseline version give the same bits.
+TEST(BatchPropagator, HcwStepSameBitsWithAndWithoutAvx512) {
+  expect_same_bits_with_and_without_avx512(kSource + "/bench/cases/hcw-tracking/case.toml", {3, 13, 64}, false);
+}
+
 // The lane programs' whole-step kernel with its feedback law in eight lanes per
-// vector (AVX-512) and in four (AVX2/baseline) gives the same bits: every output
-// and ok flag, at lane counts below, at and around the block width, with
-// functions, powers, limits and a diverging lane (on a CPU without AVX-512F both
-// runs take four lanes).
+// vector (AVX-512) and in four (AVX2/baseline): the same bits at lane counts
+// below, at and around the block width, with functions, powers, limits and a
+// diverging lane.
 TEST(BatchPropagator, LaneProgramStepSameBitsWithAndWithoutAvx512) {
   for (const std::string name : {"/bench/cases/hcw-tracking-expression/case.toml", "/tests/cases/expression_lanes.toml"}) {
     const app::LoadedCase loaded = app::load_case(kSource + name);
-    const auto& cl = *loaded.closed_loop;
-    const model::BatchPropagator batch(cl, loaded.options);
-    ASSERT_TRUE(batch.compiled_expressions()) << name;
-    const std::size_t width = cl.report_times().size() * static_cast<std::size_t>(cl.output_count());
-    for (const int lanes : {1, 7, 32, 33, 65}) {
-      std::vector<model::Perturbation> perturbations = perturbations_for(loaded, lanes);
-      if (lanes > 3) perturbations[3].initial_offset[0] = 1e13;  // beyond the divergence bound from the start
-      std::vector<double> a(width * static_cast<std::size_t>(lanes)), b(a.size());
-      std::vector<std::uint8_t> ok_a(static_cast<std::size_t>(lanes)), ok_b(ok_a.size());
-      batch.run(perturbations.data(), lanes, a.data(), width, ok_a.data());
-      model::BatchPropagator::allow_avx512(false);
-      batch.run(perturbations.data(), lanes, b.data(), width, ok_b.data());
-      model::BatchPropagator::allow_avx512(true);
-      EXPECT_EQ(ok_a, ok_b) << name << ", " << lanes << " lanes";
-      if (lanes > 3) EXPECT_EQ(ok_a[3], 0) << name;
-      EXPECT_EQ(std::memcmp(a.data(), b.data(), a.size() * sizeof(double)), 0) << name << ", " << lanes << " lanes";
-    }
+    ASSERT_TRUE(model::BatchPropagator(*loaded.closed_loop, loaded.options).compiled_expressions()) << name;
+    expect_same_bits_with_and_without_avx512(kSource + name, {1, 7, 32, 33, 65}, true);
   }
 }
 

@@ -10,6 +10,7 @@
 #include "sigmatube/constraints/surrogate_sampling.h"
 #include "sigmatube/core/parallel.h"
 #include "sigmatube/core/counter_rng.h"
+#include "sigmatube/expansion/basis_product.h"
 #include "sigmatube/expansion/grouped_sobol.h"
 #include "sigmatube/model/deterministic_tube.h"
 
@@ -120,7 +121,8 @@ void input_share_stage(const LoadedCase& loaded, const expansion::Surrogate& sur
   std::vector<Eigen::MatrixXd> clearances(loaded.constraints.size(), Eigen::MatrixXd(n, n_times));
   parallel_for(static_cast<std::size_t>(n_times), threads, [&](std::size_t ts) {
     const Eigen::Index t = static_cast<Eigen::Index>(ts);
-    const Eigen::MatrixXd block = basis * selected.middleCols(t * n_read, n_read);
+    Eigen::MatrixXd block(n, n_read);
+    expansion::basis_product(basis, expansion::PackedColumns(selected, t * n_read, n_read), block);
     Eigen::VectorXd c(n);
     for (std::size_t k = 0; k < compact.constraints.size(); ++k) {
       compact.constraints[k].clearance(block, r.time[ts], c);
